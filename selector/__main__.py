@@ -1,0 +1,4 @@
+"""``python -m selector``."""
+from .cli import entry
+
+entry()

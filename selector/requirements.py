@@ -85,12 +85,13 @@ class Requirements:
 
 
 def derive(brief: Brief, network: tuple[float, float] | None = None,
-           network_source: str = "synthesised") -> Requirements:
+           network_source: str = "synthesised", synthesise: bool = True) -> Requirements:
     """Derive the requirements of ``brief``.
 
-    ``network`` = (rf, rg) in Ω overrides the assumed network when the brief gives
-    none (the network synthesis passes its choice here).  Raises
-    :class:`InputError` for briefs that cannot be built as stated.
+    ``network`` = (rf, rg) in Ω is used when the brief gives none.  Without either,
+    ``synthesise`` picks standard values (selector.network); ``synthesise=False``
+    assumes rg = 1 kΩ and the exact rf.  Raises :class:`InputError` for briefs that
+    cannot be built as stated.
     """
     problems: list[Problem] = []
     src = brief.source

@@ -85,12 +85,16 @@ def _full(size: int, value) -> np.ndarray:
     return np.full(size, value, dtype=float)
 
 
+_STATUS_OF_CODE = np.array([PASS, FAIL, UNKNOWN, NA], dtype=object)  # code -> status
+
+
 def _status(size: int, applicable: bool, missing, passed) -> np.ndarray:
     if not applicable:
         return np.full(size, NA, dtype=object)
     missing = np.broadcast_to(np.asarray(missing, dtype=bool), (size,))
     passed = np.broadcast_to(np.asarray(passed, dtype=bool), (size,))
-    return np.where(missing, UNKNOWN, np.where(passed, PASS, FAIL)).astype(object)
+    code = np.where(missing, 2, (~passed).view(np.int8))  # 0 pass, 1 fail, 2 unknown
+    return _STATUS_OF_CODE[code]  # one shared str object per status: no per-row copies
 
 
 def _ratio(name, parts, required, available, applicable=True, missing=False):
@@ -125,7 +129,8 @@ def _headroom(name, parts, low_slack_parts, low_need, high_slack_parts, high_nee
     margin = np.where(low_binds, low_margin, high_margin)
     required = np.where(low_binds, low_need, high_need)
     available = np.where(low_binds, low_left, high_left)
-    missing = np.asarray(missing) | np.isnan(margin)
+    # either side's figure missing is "unknown", even if the other side has room
+    missing = np.asarray(missing) | np.isnan(low_margin) | np.isnan(high_margin)
     return _result(name, size, applicable, missing, margin >= 0, required, available, margin)
 
 
@@ -222,15 +227,22 @@ def dc_error(req: Requirements, parts: Parts) -> CheckResult:
 
 
 def noise_band(req: Requirements, parts: Parts) -> tuple[np.ndarray, np.ndarray]:
-    """Noise band (Hz) per part: the brief's, or 0.1 Hz to (π/2)·GBW/NG."""
+    """Noise band (Hz) per part: from the brief's lower edge (default 0.1 Hz) to the
+    single-pole noise bandwidth (π/2)·GBW/NG, bounded above by the brief's upper edge.
+
+    A stage narrower than the brief's band cannot pass noise beyond its own noise
+    bandwidth; a part without a GBW figure gets NaN (unknown) only when the brief
+    gives no upper edge.
+    """
     band = req.brief.noise_band
     size = parts.size
-    if band is not None and band[0] is not None:
-        return _full(size, band[0]), _full(size, band[1])
-    low = _full(size, rel.DEFAULT_NOISE_LOW_HZ)
-    if band is not None:
-        return low, _full(size, band[1])
-    return low, rel.noise_bandwidth_single_pole(parts["gbw"] / req.noise_gain)
+    low = _full(size, band[0] if band is not None and band[0] is not None
+                else rel.DEFAULT_NOISE_LOW_HZ)
+    enbw = rel.noise_bandwidth_single_pole(parts["gbw"] / req.noise_gain)
+    if band is None:
+        return low, enbw
+    high = np.fmin(enbw, band[1])  # fmin: a missing GBW leaves the brief's edge
+    return low, np.maximum(high, low)
 
 
 def noise_of(req: Requirements, parts: Parts) -> tuple[np.ndarray, np.ndarray]:
@@ -304,10 +316,16 @@ def quiescent_current(req: Requirements, parts: Parts) -> CheckResult:
 
 
 def load_current(req: Requirements) -> float:
-    """Peak output current (A): load to ground plus the feedback network to Vref."""
+    """Peak output current (A): the load (returned to ground) plus the feedback network
+    (returned to Vref) at either end of the output range, plus for a sine the peak
+    current 2π·f·Vp·C_L into the load capacitance (added: conservative)."""
     reference = req.reference or 0.0
-    return max(abs(y) / req.brief.load_resistance + abs(y - reference) / req.feedback_load
-               for y in req.output_range)
+    resistive = max(abs(y) / req.brief.load_resistance
+                    + abs(y - reference) / req.feedback_load for y in req.output_range)
+    capacitive = 0.0
+    if req.brief.waveform == "sine":
+        capacitive = 2 * np.pi * req.frequency * req.output_peak * req.brief.load_capacitance
+    return float(resistive + capacitive)
 
 
 @check("output_drive", "min", "A", ("iout",))

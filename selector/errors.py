@@ -20,7 +20,9 @@ class Problem:
 
     def __str__(self) -> str:
         location = ", ".join(part for part in (self.source, self.where) if part)
-        return f"{location}: {self.message}" if location else self.message
+        # one problem, one line: a cell or value with line breaks is shown escaped
+        message = self.message.replace("\r", "\\r").replace("\n", "\\n")
+        return f"{location}: {message}" if location else message
 
 
 class InputError(Exception):

@@ -21,7 +21,8 @@ import numpy as np
 import pandas as pd
 
 from .errors import InputError, Problem, ProblemList, UnitError
-from .units import parse_column, resolve_unit
+from .fastcsv import blank_rows, clean_text, read_plain
+from .units import format_si, parse_column, resolve_unit
 
 
 @dataclass(frozen=True)
@@ -111,28 +112,47 @@ def normalise_key(keys: pd.Series) -> pd.Series:
 
 
 def read_text(path: str | Path) -> str:
-    """Read a text file, detecting UTF-8 (with or without BOM), UTF-16 and Latin-1."""
+    """Read a text file, detecting UTF-8 (with or without BOM), UTF-16 and Latin-1.
+
+    Reads at most :data:`MAX_FILE_BYTES` (so ``/dev/zero`` or a runaway export
+    cannot exhaust memory); a pipe such as ``<(cat parts.csv)`` works.
+    """
     path = Path(path)
     source = str(path)
-    if not path.exists():
-        raise InputError(f"{source}: no such file")
-    if path.is_dir():
-        raise InputError(f"{source}: is a directory, expected a file")
     try:
-        if path.stat().st_size > MAX_FILE_BYTES:
-            raise InputError(f"{source}: file is larger than {MAX_FILE_BYTES >> 20} MB")
-        raw = path.read_bytes()
+        if path.is_dir():
+            raise InputError(f"{source}: is a directory, expected a file")
+        if not path.exists():
+            raise InputError(f"{source}: no such file")
+        with path.open("rb") as stream:
+            raw = stream.read(MAX_FILE_BYTES + 1)
     except PermissionError:
         raise InputError(f"{source}: cannot be read (permission denied)") from None
     except OSError as exc:
-        raise InputError(f"{source}: cannot be read ({exc.strerror})") from None
+        raise InputError(f"{source}: cannot be read ({exc.strerror or exc})") from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise InputError(f"{source}: file is larger than {MAX_FILE_BYTES >> 20} MB")
+    return decode(raw, source)
+
+
+def decode(raw: bytes, source: str = "<file>") -> str:
+    """Bytes to text: UTF-16 with a byte-order mark, UTF-8 (a BOM is dropped), else
+    Latin-1 (ISO 8859-1, where every byte is a character: the common encoding of
+    older spreadsheet exports, so a ``µ`` in a unit reads as ``µ``)."""
     if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
-        return raw.decode("utf-16")
+        try:
+            return raw.decode("utf-16")
+        except UnicodeDecodeError as exc:
+            raise InputError(f"{source}: starts with a UTF-16 byte-order mark but is not "
+                             f"valid UTF-16 (byte {exc.start}: {exc.reason}); save it "
+                             "again as UTF-8 text") from None
     if raw.startswith(b"\xef\xbb\xbf"):
         raw = raw[3:]
-    if b"\x00" in raw[:4096]:
-        raise InputError(f"{source}: looks binary or UTF-16 without a byte-order mark; "
-                         "save it as UTF-8 text")
+    if b"\x00" in raw:
+        position = raw.index(b"\x00")
+        raise InputError(f"{source}: contains a NUL byte (byte {position}): it looks "
+                         "binary or UTF-16 without a byte-order mark; save it as UTF-8 "
+                         "text")
     try:
         return raw.decode("utf-8")
     except UnicodeDecodeError:
@@ -155,13 +175,14 @@ def load_library(path: str | Path, strict: bool = True) -> Library:
 def parse_library(text: str, source: str = "<library>", strict: bool = True) -> Library:
     """Parse library CSV text (see :func:`load_library`)."""
     problems = ProblemList(source)
-    header, frame = _read_csv(text, source)
-    names, units = _parse_header(header, problems)
+    text = text.removeprefix("\ufeff")  # a BOM left by reading with encoding="utf-8"
+    header, frame, header_row = _read_csv(text, source)
+    names, units = _parse_header(header, problems, header_row)
     problems.raise_if_any()
     frame.columns = names
-    rows = np.arange(2, len(frame) + 2)
-    keep = ~(frame.apply(lambda col: col.str.strip() == "").all(axis=1))
-    frame, rows = frame[keep].reset_index(drop=True), rows[keep.to_numpy()]
+    rows = np.arange(header_row + 1, len(frame) + header_row + 1)
+    keep = ~blank_rows(frame)
+    frame, rows = frame[keep].reset_index(drop=True), rows[keep]
     if frame.empty:
         raise InputError(f"{source}: no parts (the file has a header but no data rows)")
 
@@ -170,7 +191,7 @@ def parse_library(text: str, source: str = "<library>", strict: bool = True) -> 
         spec = COLUMNS.get(name)
         column = frame[name]
         if spec is None or spec.dimension == "text":
-            table[name] = column.str.strip()
+            table[name] = clean_text(column)
             continue
         if spec.dimension == "bool":
             table[name] = _parse_bool(column, name, rows, problems)
@@ -187,80 +208,133 @@ def parse_library(text: str, source: str = "<library>", strict: bool = True) -> 
     return Library(source, table, rows, extra, units, problems.problems)
 
 
-def _read_csv(text: str, source: str) -> tuple[list[str], pd.DataFrame]:
+MAX_CELL_CHARS = 131072  # the csv module's default field limit; longer is not a part
+
+
+def shown(text: str, limit: int = 40) -> str:
+    """A cell as quoted in a message: control characters escaped, long text cut."""
+    text = text.encode("unicode_escape").decode("ascii") if not text.isprintable() else text
+    return text if len(text) <= limit else text[:limit - 3] + "..."
+
+
+def _read_csv(text: str, source: str) -> tuple[list[str], pd.DataFrame, int]:
+    """Split CSV text into header and body; returns them and the row number of the
+    header (1 unless blank rows come first).  Rows are counted as records, as a
+    spreadsheet shows them (a quoted cell with line breaks stays one row)."""
     if not text.strip():
         raise InputError(f"{source}: file is empty")
-    first_line = text.lstrip("\r\n").splitlines()[0]
+    stripped = text.lstrip("\r\n")
+    first_line = stripped.splitlines()[0]
+    first_row = text[:len(text) - len(stripped)].count("\n") + 1
     if first_line.count(";") > first_line.count(",") and first_line.count(";") >= 2:
         raise InputError(
-            f"{source}, row 1: the file is semicolon-separated (a spreadsheet export "
+            f"{source}, row {first_row}: the file is semicolon-separated (a spreadsheet export "
             "with decimal commas?); save it as comma-separated with '.' as the decimal "
             "point")
     if "\t" in first_line and "," not in first_line:
-        raise InputError(f"{source}, row 1: the file is tab-separated; save it as "
+        raise InputError(f"{source}, row {first_row}: the file is tab-separated; save it as "
                          "comma-separated")
-    reader = csv.reader(io.StringIO(text, newline=""))
+    plain = read_plain(text)  # quote-free table: pandas' C parser, same cells
+    if plain is not None:
+        return plain[0], plain[1], 1
+    # strict: a stray or unclosed quote is an error, never a silently glued cell
+    reader = csv.reader(io.StringIO(text, newline=""), strict=True)
+    records: list[list[str]] = []
     try:
-        records = list(reader)
+        for record in reader:
+            records.append(record)
     except csv.Error as exc:
-        raise InputError(f"{source}, row {reader.line_num}: {exc}") from None
+        raise InputError(_csv_problem(source, exc, len(records) + 1, reader.line_num,
+                                      text)) from None
+    skipped = 0
     while records and not any(cell.strip() for cell in records[0]):
         records.pop(0)
+        skipped += 1
     if not records:
         raise InputError(f"{source}: file is empty")
+    header_row = skipped + 1
     header = records[0]
     while header and header[-1].strip() == "":
         header = header[:-1]
     width = len(header)
     body = []
-    for number, record in enumerate(records[1:], start=2):
+    for number, record in enumerate(records[1:], start=header_row + 1):
         while len(record) > width and record[-1].strip() == "":
             record = record[:-1]  # trailing separators
         if len(record) > width:
+            hint = (" (an unquoted comma inside a value, such as a decimal comma "
+                    "'1,5'? quote it or use '.' as the decimal point)")
             raise InputError(f"{source}, row {number}: {len(record)} fields, but the "
-                             f"header has {width}")
+                             f"header has {width}{hint}")
         body.append(record + [""] * (width - len(record)))
     frame = pd.DataFrame(body, columns=range(width), dtype="string").fillna("")
-    return header, frame.astype(str)
+    return header, frame.astype(str), header_row
 
 
-def _parse_header(header: list[str], problems: ProblemList) -> tuple[list[str], dict]:
+def _csv_problem(source: str, exc: csv.Error, row: int, line: int, text: str) -> str:
+    message = str(exc)
+    if "field larger than field limit" in message:
+        column = _long_cell_column(text, line)
+        where = f"row {row}" + (f", column {column}" if column else "")
+        return (f"{source}, {where}: a cell longer than {MAX_CELL_CHARS} characters; "
+                "this does not look like a parts table")
+    if "unexpected end of data" in message:
+        return (f"{source}, row {row}: a quoted cell is never closed (a missing '\"'); "
+                "the file ends inside it")
+    if "expected" in message and "after" in message:
+        return (f"{source}, row {row} (line {line}): a quote inside a cell must be "
+                f"doubled, or the whole cell quoted ({message})")
+    return f"{source}, row {row} (line {line}): {message}"
+
+
+def _long_cell_column(text: str, line: int) -> int | None:
+    """1-based column of the over-long cell on physical ``line`` (best effort)."""
+    lines = text.splitlines()
+    if not 0 < line <= len(lines):
+        return None
+    fields = lines[line - 1].split(",")
+    longest = max(range(len(fields)), key=lambda i: len(fields[i]))
+    return longest + 1 if len(fields[longest]) > MAX_CELL_CHARS else None
+
+
+def _parse_header(header: list[str], problems: ProblemList,
+                  row: int = 1) -> tuple[list[str], dict]:
     names, units, seen = [], {}, {}
     for position, cell in enumerate(header, start=1):
         match = HEADER_RE.match(cell)
         name = (match.group(1) if match else cell).strip().lower().replace(" ", "_")
         unit = match.group(2) if match and match.group(2) else None
         if not name:
-            problems.add(f"row 1, column {position}", "empty column name")
+            problems.add(f"row {row}, column {position}", "empty column name")
             name = f"column_{position}"
         if name in seen:
-            problems.add(f"row 1, column '{name}'",
+            problems.add(f"row {row}, column '{name}'",
                          f"duplicate column (columns {seen[name]} and {position})")
         seen.setdefault(name, position)
         spec = COLUMNS.get(name)
         if unit and spec and spec.dimension in ("text", "bool"):
-            problems.add(f"row 1, column '{name}'", f"a {name} column takes no unit")
+            problems.add(f"row {row}, column '{name}'", f"a {name} column takes no unit")
         elif unit and spec:
             try:
                 resolve_unit(unit, spec.dimension)
             except UnitError as exc:
-                problems.add(f"row 1, column '{name}'", f"header unit: {exc}")
+                problems.add(f"row {row}, column '{name}'", f"header unit: {exc}")
         names.append(name)
         units[name] = unit
     for spec in COLUMNS.values():
         if spec.required and spec.name not in seen:
-            problems.add("row 1", f"missing required column '{spec.name}'")
+            problems.add(f"row {row}", f"missing required column '{spec.name}'")
     return names, units
 
 
 def _parse_bool(column: pd.Series, name: str, rows: np.ndarray,
                 problems: ProblemList) -> np.ndarray:
-    text = column.str.strip().str.lower()
+    text = clean_text(column, lower=True)
     values = np.where(text.isin(_TRUE), 1.0, np.where(text.isin(_FALSE), 0.0, np.nan))
     bad = ~(text.isin(_TRUE) | text.isin(_FALSE) | (text == ""))
     for index in np.flatnonzero(bad.to_numpy()):
         problems.add(f"row {rows[index]}, column '{name}'",
-                     f"'{column.iloc[index]}' is not yes/no")
+                     f"'{shown(column.iloc[index])}' is not yes/no")
     return values
 
 
@@ -290,30 +364,48 @@ def _validate(table: pd.DataFrame, rows: np.ndarray, problems: ProblemList) -> N
     for name in positive:
         if name not in table:
             continue
-        values = table[name].to_numpy()
-        bad = values < 0 if name in ("en_corner", "cin_cm", "cin_diff", "ro") else values <= 0
+        values = table[name].to_numpy(dtype=float, copy=True)
+        zero_ok = name in ("en_corner", "cin_cm", "cin_diff", "ro")
+        bad = values < 0 if zero_ok else values <= 0
         for index in np.flatnonzero(bad):
             problems.add(f"row {rows[index]}, column '{name}'",
-                         f"must be positive, got {values[index]:g} (SI)")
+                         ("must not be negative, got " if zero_ok else "must be positive, got ")
+                         + format_si(values[index], COLUMNS[name].dimension))
+        _blank(table, name, bad)
     if "pm" in table:
-        values = table["pm"].to_numpy()
-        for index in np.flatnonzero((values <= 0) | (values >= 180)):
+        values = table["pm"].to_numpy(dtype=float)
+        bad = (values <= 0) | (values >= 180)
+        for index in np.flatnonzero(bad):
             problems.add(f"row {rows[index]}, column 'pm'",
                          f"phase margin must be between 0 and 180°, got {values[index]:g}")
+        _blank(table, "pm", bad)
+    # order checks only between figures that are valid on their own
     span = table["supply_min"].to_numpy() >= table["supply_max"].to_numpy()
     for index in np.flatnonzero(span):
         problems.add(f"row {rows[index]}, column 'supply_min'",
                      "supply_min must be below supply_max")
+    _blank(table, "supply_min", span)
+    _blank(table, "supply_max", span)
     if "temp_min" in table and "temp_max" in table:
         flipped = table["temp_min"].to_numpy() >= table["temp_max"].to_numpy()
         for index in np.flatnonzero(flipped):
             problems.add(f"row {rows[index]}, column 'temp_min'",
                          "temp_min must be below temp_max")
+        _blank(table, "temp_min", flipped)
+        _blank(table, "temp_max", flipped)
     if "status" in table:
         status = table["status"].str.lower()
         table["status"] = status
         bad = ~status.isin(STATUSES + ("",))
         for index in np.flatnonzero(bad.to_numpy()):
             problems.add(f"row {rows[index]}, column 'status'",
-                         f"'{table['status'].iloc[index]}' is not one of "
+                         f"'{shown(table['status'].iloc[index])}' is not one of "
                          f"{', '.join(STATUSES)}")
+
+
+def _blank(table: pd.DataFrame, name: str, bad: np.ndarray) -> None:
+    """A figure that failed validation is missing in a lenient load, never used."""
+    if bad.any():
+        values = table[name].to_numpy(dtype=float, copy=True)
+        values[bad] = np.nan
+        table[name] = values

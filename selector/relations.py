@@ -71,7 +71,8 @@ def settling_time(step, slew, gbw, noise_gain, fraction):
 
     τ = NG/(2π·GBW).  While the exponential would need more than the slew rate the
     output slews; it leaves slewing with SR·τ still to go, then settles linearly:
-    t = (V − SR·τ)/SR + τ·ln(SR·τ/(ε·V)), or τ·ln(1/ε) when it never slews. §2
+    t = (V − SR·τ)/SR + τ·ln(SR·τ/(ε·V)), or τ·ln(1/ε) when it never slews; when
+    SR·τ < ε·V the output is inside the band while still slewing: t = (1 − ε)·V/SR. §2
     """
     tau = np.asarray(noise_gain) / (2 * np.pi * np.asarray(gbw))
     step = np.abs(np.asarray(step, dtype=float))
@@ -79,7 +80,8 @@ def settling_time(step, slew, gbw, noise_gain, fraction):
     knee = np.asarray(slew) * tau
     with np.errstate(divide="ignore", invalid="ignore"):
         slewing = (step - knee) / slew + tau * np.log(knee / (fraction * step))
-    return np.where(step > knee, slewing, linear)
+        slew_only = (1 - np.asarray(fraction)) * step / slew
+    return np.where(step > knee, np.where(knee < fraction * step, slew_only, slewing), linear)
 
 
 def parallel(a, b):
@@ -131,7 +133,10 @@ def feedback_pole(feedback_parallel, input_capacitance):
 
 def second_pole(gbw, unity_phase_margin_deg):
     """Second open-loop pole (Hz) from the unity-gain phase margin: GBW·tan(PM1). §6"""
-    return np.asarray(gbw) * np.tan(np.radians(unity_phase_margin_deg))
+    pm = np.asarray(unity_phase_margin_deg, dtype=float)
+    with np.errstate(invalid="ignore"):
+        # PM1 ≥ 90° means no second pole near the crossover (tan would turn negative)
+        return np.where(pm >= 90, np.inf, np.asarray(gbw) * np.tan(np.radians(np.minimum(pm, 89.999))))
 
 
 def loop_gain(frequency, gbw, aol, noise_gain, poles):
@@ -153,19 +158,37 @@ def crossover_and_phase_margin(gbw, aol, noise_gain, poles, iterations=80):
     gbw = np.asarray(gbw, dtype=float)
     aol, noise_gain = np.broadcast_to(aol, gbw.shape), np.broadcast_to(noise_gain, gbw.shape)
     poles = [np.broadcast_to(np.asarray(p, dtype=float), gbw.shape) for p in poles]
-    low = np.full(gbw.shape, -6.0)
-    high = np.full(gbw.shape, 13.0)
+    low = np.full(gbw.shape, 1e-6)  # Hz; the bisection halves log-frequency, so the
+    high = np.full(gbw.shape, 1e13)  # midpoint is the geometric mean of the bounds
+    # 1/|L|² in real arithmetic (no complex temporaries): |L| > 1 ⇔ this < 1
+    inv_aol2 = np.where(np.isfinite(aol), 1 / aol, 0.0) ** 2
+    inv_gbw, ng2 = 1 / gbw, np.asarray(noise_gain, dtype=float) ** 2
+    with np.errstate(divide="ignore"):
+        inv_poles = [1 / p for p in poles]
 
-    def magnitude(log_f):
-        return np.abs(loop_gain(10.0 ** log_f, gbw, aol, noise_gain, poles))
+    def inverse_magnitude2(f):
+        value = f * inv_gbw
+        value *= value
+        value += inv_aol2
+        value *= ng2
+        for inv_pole in inv_poles:
+            term = f * inv_pole
+            term *= term
+            term += 1
+            value *= term
+        return value
 
-    never = magnitude(low) < 1
-    for _ in range(iterations):
-        middle = (low + high) / 2
-        above = magnitude(middle) > 1
-        low = np.where(above, middle, low)
-        high = np.where(above, high, middle)
-    crossover = 10.0 ** ((low + high) / 2)
+    never = inverse_magnitude2(low) > 1
+    middle = np.empty_like(low)
+    for step in range(iterations):
+        np.multiply(low, high, out=middle)
+        np.sqrt(middle, out=middle)
+        above = inverse_magnitude2(middle) < 1
+        if step % 8 == 7 and not np.where(above, middle != low, middle != high).any():
+            break  # a fixed point: this and every later step would change nothing
+        np.copyto(low, middle, where=above)
+        np.copyto(high, middle, where=~above)
+    crossover = np.sqrt(low * high)
     phase = -np.degrees(np.arctan(crossover * np.where(np.isfinite(aol), aol, np.inf) / gbw))
     phase = np.where(np.isfinite(aol), phase, -90.0)
     for pole in poles:

@@ -9,6 +9,8 @@ import csv
 import io
 import json
 import math
+import re
+import sys
 from typing import Iterable
 
 import numpy as np
@@ -44,6 +46,8 @@ def clean(value):
     """JSON-safe: NaN/inf → None, numpy scalars → Python."""
     if isinstance(value, dict):
         return {k: clean(v) for k, v in value.items()}
+    if isinstance(value, np.ndarray):
+        return clean(value.tolist())
     if isinstance(value, (list, tuple)):
         return [clean(v) for v in value]
     if isinstance(value, (np.floating, float)):
@@ -61,12 +65,16 @@ def to_json(data) -> str:
 
 
 # ------------------------------------------------------------------ data shapes
+DERIVED_KEYS = ("name", "topology", "gain", "noise_gain", "offset", "reference", "rf",
+                "rg", "output_range", "input_common_mode", "supply_span", "output_peak",
+                "slew_min", "closed_loop_bandwidth_min", "gbw_min", "dc_error_budget",
+                "noise_budget", "temperature")
+
+
 def derived_dict(req: Requirements) -> dict:
+    """The ``derive`` JSON object: exactly :data:`DERIVED_KEYS`, SI units."""
     data = req.to_dict()
-    data.pop("notes")
-    data.pop("network_source")
-    data.pop("aol_min")
-    return data
+    return {key: data[key] for key in DERIVED_KEYS}
 
 
 def entry_dict(shortlist: Shortlist, position: int, extra: dict | None = None) -> dict:
@@ -167,7 +175,10 @@ def derived_rows(req: Requirements) -> list[tuple[str, str]]:
 # ------------------------------------------------------------------ renderers
 def render_derive(req: Requirements, fmt: str, console=None) -> str | None:
     if fmt == "json":
-        return to_json(req.to_dict())
+        # the object has exactly the documented keys; notes go to stderr
+        for note in req.notes:
+            print(f"selector: note: {note}", file=sys.stderr)
+        return to_json(derived_dict(req))
     rows = derived_rows(req)
     if fmt == "markdown":
         lines = [f"## Derived requirements: {req.name}", "", "| quantity | value |",
@@ -294,15 +305,31 @@ def _print_shortlist(console, shortlist, header, good, near) -> None:
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 
+# A plain decimal number (what a spreadsheet reads as a number, not a formula).
+PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
+
+
 def neutralise(cell):
-    """Prefix text cells a spreadsheet would run as a formula; numbers stay numbers."""
-    if isinstance(cell, str) and cell.startswith(FORMULA_START):
-        try:
-            float(cell)
-            return cell
-        except ValueError:
-            return "'" + cell
-    return "" if cell is None else cell
+    """One CSV cell made safe for a spreadsheet (SI numbers, text as text).
+
+    A text cell starting with ``=``, ``+``, ``-``, ``@``, tab or carriage return is
+    prefixed with ``'`` so a spreadsheet shows it instead of running it as a formula
+    (spreadsheet formula injection); a text cell that is a plain decimal number such
+    as ``-3.5e-6`` is left alone.  Numbers stay numbers; None, NaN and infinity
+    become an empty cell (as null in JSON); booleans are written as true/false.
+    """
+    if cell is None:
+        return ""
+    if isinstance(cell, (bool, np.bool_)):
+        return "true" if cell else "false"
+    if isinstance(cell, (int, np.integer)):
+        return int(cell)
+    if isinstance(cell, (float, np.floating)):
+        return "" if not math.isfinite(float(cell)) else float(cell)
+    cell = str(cell)
+    if cell.startswith(FORMULA_START) and not PLAIN_NUMBER.fullmatch(cell):
+        return "'" + cell
+    return cell
 
 
 def write_csv(rows: Iterable[Iterable]) -> str:

@@ -44,6 +44,7 @@ class Requirements:
     delta_t: float
     feedback_parallel: float
     notes: list[str] = field(default_factory=list)
+    offset_network: object | None = None  # selector.offset.OffsetSolution when synthesised
 
     @property
     def name(self) -> str:
@@ -108,14 +109,26 @@ def derive(brief: Brief, network: tuple[float, float] | None = None,
     if problems:
         raise InputError(problems)
 
-    rf, rg, noise_gain, source = _network(brief, gain, network, network_source, fail, notes)
+    # level shifting and standard values (selector.offset / selector.network, issue 4)
+    plan = _offset_plan(brief, gain, offset)
+    summing = plan is not None and plan.kind == "summing"
+    wanted_ng = plan.noise_gain if summing else gain
+    offset_network = None
+    if (synthesise and network is None and brief.rf is None and brief.rg is None
+            and gain is not None and topology != "follower" and abs(wanted_ng - 1) > 1e-12):
+        from .offset import realise
+        offset_network = realise(brief, gain, offset or 0.0, series="auto")
+        network, network_source = (offset_network.rf, offset_network.rg), "synthesised"
+        notes.extend(_synthesis_notes(offset_network))
+    rf, rg, noise_gain, source = _network(brief, wanted_ng, network, network_source, fail,
+                                          notes)
     if problems:
         raise InputError(problems)
     if gain is None:  # gain from the network alone
         gain = 1 + rf / rg if topology == "non-inverting" else -rf / (rg + rs)
         offset = 0.0
 
-    reference = _reference(brief, gain, noise_gain, offset, fail)
+    reference = None if summing else _reference(brief, gain, noise_gain, offset, fail)
     if problems:
         raise InputError(problems)
     if offset == 0.0 and reference:
@@ -125,7 +138,11 @@ def derive(brief: Brief, network: tuple[float, float] | None = None,
     ends = (gain * x_lo + offset, gain * x_hi + offset)
     y_lo, y_hi = min(ends), max(ends)
     if y_lo < brief.supply_negative - 1e-12 or y_hi > brief.supply_positive + 1e-12:
-        fail("output.min" if y_lo < brief.supply_negative else "output.max",
+        side = "min" if y_lo < brief.supply_negative else "max"
+        key = (f"output.{side}" if brief.output_min is not None
+               else "output.gain" if brief.gain is not None
+               else "network.rf" if brief.rf is not None else f"signal.{side}")
+        fail(key,
              f"the output must reach {y_lo:g} V to {y_hi:g} V, outside the supply "
              f"rails {brief.supply_negative:g} V to {brief.supply_positive:g} V: "
              "no part can swing beyond its rails")
@@ -134,6 +151,12 @@ def derive(brief: Brief, network: tuple[float, float] | None = None,
     if topology == "inverting":
         cm = (reference or 0.0, reference or 0.0)
         feedback_parallel = rel.parallel(rf, rg + rs).item()
+    elif summing:  # the + input sees y/NG, not the signal
+        cm = (y_lo / noise_gain, y_hi / noise_gain)
+        feedback_parallel = rel.parallel(rf, rg).item()
+        notes.append(f"summing network from {plan.reference:g} V: the op-amp input sees "
+                     f"{cm[0]:.4g} V to {cm[1]:.4g} V (not the signal's range); the "
+                     "source sees R1 + R2 and the + input (R1 + Rs) ∥ R2")
     else:
         cm = (x_lo, x_hi)
         feedback_parallel = 0.0 if rf == 0 else rel.parallel(rf, rg).item()
@@ -164,7 +187,30 @@ def derive(brief: Brief, network: tuple[float, float] | None = None,
         dc_error_budget=brief.dc_error, noise_budget=brief.noise,
         temperature=temperature, delta_t=delta_t,
         feedback_parallel=float(feedback_parallel), notes=notes,
+        offset_network=offset_network,
     )
+
+
+def _offset_plan(brief: Brief, gain, offset):
+    """The ideal offset network (selector.offset.plan) when there is an offset."""
+    if gain is None or not offset or brief.topology == "follower":
+        return None
+    from .offset import plan  # lazy: selector.offset builds on this module's neighbours
+    return plan(brief, gain, offset)
+
+
+def _synthesis_notes(solution) -> list[str]:
+    from .network import resistor_code
+    parts = [f"{name} = {resistor_code(value)}" for name, value in
+             (("rf", solution.rf), ("rg", solution.rg), ("r1", solution.r1),
+              ("r2", solution.r2), ("ra", solution.ra), ("rb", solution.rb))
+             if value is not None]
+    pair = solution.pair
+    return [f"network synthesised from {pair.series} values ({solution.kind}): "
+            + ", ".join(parts)
+            + f"; gain {solution.gain:.5g} for {solution.wanted[0]:.5g} wanted, "
+            f"endpoints within {solution.endpoint_error * 1e3:.3g} mV "
+            "(see 'selector network' for the trade-offs)"]
 
 
 def _transfer_line(brief: Brief, fail) -> tuple[float | None, float | None]:
@@ -238,11 +284,20 @@ def _reference(brief: Brief, gain, noise_gain, offset, fail) -> float | None:
     """Reference voltage that makes the offset c (method §1), checked against rails."""
     topology = brief.topology
     given = brief.reference
+    low, high = brief.supply_negative, brief.supply_positive
     if offset == 0.0:
         if given not in (None, 0.0) and brief.output_min is not None:
             fail("network.reference", f"the output range needs no offset, but a "
                  f"reference of {given:g} V would shift it")
+        elif given is not None and not low <= given <= high:
+            fail("network.reference", f"the reference of {given:g} V is outside the "
+                 f"supply rails ({low:g} V to {high:g} V): this topology cannot use it "
+                 "alone, a summing network or a divider from the rails is needed")
         return given
+    if noise_gain <= 1:
+        fail("output.min", f"a gain-1 stage cannot add an offset ({offset:.4g} V "
+             "asked): a summing network is needed")
+        return None
     if topology == "non-inverting":
         needed = -offset / (noise_gain - 1)
     else:
@@ -250,7 +305,6 @@ def _reference(brief: Brief, gain, noise_gain, offset, fail) -> float | None:
     if given is not None and abs(given - needed) > max(1e-3, GAIN_AGREEMENT * abs(needed)):
         fail("network.reference", f"the output range needs a reference of {needed:.4g} V, "
              f"but network.reference is {given:g} V")
-    low, high = brief.supply_negative, brief.supply_positive
     if not low <= needed <= high:
         fail("output.min", f"the offset of {offset:.4g} V needs a reference of "
              f"{needed:.4g} V for this {topology} stage, outside the supply rails "

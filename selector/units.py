@@ -61,10 +61,11 @@ _SPELLINGS = [  # applied in order to a unit string before it is resolved
     ("°", "deg"),
 ]
 
-_NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
-QUANTITY_RE = re.compile(rf"^\s*({_NUMBER})\s*([^\d\s].*?)?\s*$")
+# ASCII digits only: Python's \d and float() also take other scripts' digits
+_NUMBER = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+QUANTITY_RE = re.compile(rf"^\s*({_NUMBER})\s*([^0-9\s,.].*?)?\s*$")
 # IEC 60062 resistor code: the letter is the decimal point and the multiplier
-RESISTOR_CODE_RE = re.compile(r"^\s*(\d*)([RrKkMG])(\d*)\s*(?:ohm|Ω)?\s*$")
+RESISTOR_CODE_RE = re.compile(r"^\s*([0-9]*)([RrKkMG])([0-9]*)\s*(?:ohm|Ω)?\s*$")
 _CODE_MULTIPLIER = {"R": 1.0, "r": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9}
 
 
@@ -238,24 +239,43 @@ def parse_column(values: pd.Series, dimension: str, header_unit: str | None = No
     A bad ``header_unit`` raises :class:`UnitError`.  Returns ``(values_si, errors)``
     where ``errors`` is a Series of messages indexed
     like ``values`` for every cell that could not be parsed (empty cells are NaN,
-    not errors).  Work is done once per distinct spelling, then mapped back.
+    not errors).  Work is done once per distinct cell text (a library column holds
+    few distinct spellings), then mapped back to the rows with integer codes.
     """
-    text = values.astype("string").str.strip()
-    empty = text.isna() | (text == "")
-    result = np.full(len(text), np.nan)
-    errors = pd.Series(dtype=object)
     if header_unit is not None:
         resolve_unit(header_unit, dimension)  # raises UnitError for a bad header unit
+    codes, uniques = pd.factorize(values, use_na_sentinel=True)  # missing -> -1
+    distinct = pd.Series(np.asarray(uniques, dtype=object)).astype("string").str.strip()
+    si, message = _parse_distinct(distinct, dimension, header_unit, bare_ok)
+    present = codes >= 0
+    result = np.full(len(codes), np.nan)
+    result[present] = si[codes[present]]
+    bad_distinct = message != None  # noqa: E711 (element-wise comparison)
+    if not bad_distinct.any():
+        return result, pd.Series(dtype=object)
+    bad = present.copy()
+    bad[present] = bad_distinct[codes[present]]
+    errors = pd.Series(message[codes[bad]], index=values.index[bad], dtype=object)
+    return result, errors
+
+
+def _parse_distinct(text: pd.Series, dimension: str, header_unit: str | None,
+                    bare_ok: bool) -> tuple[np.ndarray, np.ndarray]:
+    """SI value (NaN for empty or bad) and message (None if fine) per stripped text."""
+    empty = (text.isna() | (text == "")).to_numpy()
+    result = np.full(len(text), np.nan)
+    messages = np.full(len(text), None, dtype=object)
     present = text[~empty]
     if present.empty:
-        return result, errors
-    parts = present.str.extract(QUANTITY_RE)
-    number = pd.to_numeric(parts[0], errors="coerce").to_numpy(dtype=float)
-    unit = parts[1].fillna("").astype(str).to_numpy()
+        return result, messages
+    number, unit, unmatched = _split_quantities(present)
+    if dimension == "ohm":  # IEC 60062 codes ("4k7", "R47") first, as parse_quantity does
+        unmatched = unmatched | present.str.fullmatch(
+            RESISTOR_CODE_RE.pattern[1:-1]).to_numpy(dtype=bool)
     si = np.full(len(present), np.nan)
     message = np.full(len(present), None, dtype=object)
-    for spelling in pd.unique(unit):
-        rows = unit == spelling
+    for spelling in pd.unique(unit[~unmatched]):
+        rows = (unit == spelling) & ~unmatched
         if spelling == "":
             if header_unit is not None:
                 resolved = resolve_unit(header_unit, dimension)
@@ -272,7 +292,6 @@ def parse_column(values: pd.Series, dimension: str, header_unit: str | None = No
                 continue
         with np.errstate(over="ignore", invalid="ignore"):
             si[rows] = resolved.to_si(number[rows])
-    unmatched = parts[0].isna().to_numpy()
     if unmatched.any():
         if dimension == "ohm":
             codes = present[unmatched].map(parse_resistor_code)
@@ -284,11 +303,30 @@ def parse_column(values: pd.Series, dimension: str, header_unit: str | None = No
     overflow = np.isnan(si) | np.isinf(si)
     overflow &= message == None  # noqa: E711 (element-wise comparison)
     message[overflow] = [f"'{v}' is not a finite number" for v in present[overflow]]
-    result[(~empty).to_numpy()] = si
     bad = message != None  # noqa: E711
-    errors = pd.Series(message[bad], index=present.index[bad], dtype=object)
-    result[np.flatnonzero((~empty).to_numpy())[bad]] = np.nan
-    return result, errors
+    si[bad] = np.nan
+    result[~empty] = si
+    messages[~empty] = message
+    return result, messages
+
+
+def _split_quantities(text: pd.Series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Number, unit text ("" if none) and a no-match mask for stripped cell texts, as
+    :data:`QUANTITY_RE` splits them.  Plain finite numbers (most cells under a header
+    unit) are read by pandas' C number parser; only the rest meet the regex."""
+    number = np.array(pd.to_numeric(text, errors="coerce"), dtype=float)  # writable copy
+    unit = np.full(len(text), "", dtype=object)
+    rest = ~np.isfinite(number)
+    unmatched = np.zeros(len(text), dtype=bool)
+    if rest.any():
+        match = QUANTITY_RE.match  # one call per distinct text, not per row
+        groups = [m.groups() if m else (None, None)
+                  for m in map(match, text[rest].tolist())]
+        figure = pd.Series([g[0] for g in groups], dtype=object)
+        number[rest] = pd.to_numeric(figure, errors="coerce").to_numpy(dtype=float)
+        unit[rest] = [g[1] or "" for g in groups]
+        unmatched[rest] = figure.isna().to_numpy()
+    return number, unit.astype(str), unmatched
 
 
 def _bare_number_message(text: str, dimension: str) -> str:
@@ -326,13 +364,21 @@ def format_si(value, dimension: str, digits: int = 3) -> str:
     if scale is not None:
         return f"{_sig(value * scale, digits)} {unit}".rstrip()
     magnitude = abs(value)
+    if magnitude == 0:
+        return f"0 {unit}".rstrip()
+    rounded = float(f"{magnitude:.{digits}g}")  # round first: 999.7 → 1000 → "1 k"
     for factor, prefix in _ENG_PREFIXES:
-        if magnitude >= factor * 0.9995 or factor == 1e-15:
-            if magnitude == 0:
-                factor, prefix = 1.0, ""
+        if rounded >= factor or factor == _ENG_PREFIXES[-1][0]:
             return f"{_sig(value / factor, digits)} {prefix}{unit}"
     return f"{_sig(value, digits)} {unit}"
 
 
 def _sig(number: float, digits: int) -> str:
-    return "0" if number == 0 else f"{number:.{digits}g}"
+    """``digits`` significant figures in plain positional notation (no exponent)."""
+    if number == 0:
+        return "0"
+    text = f"{number:.{digits}g}"
+    if "e" in text:  # beyond the prefix range: write the digits out
+        decimals = max(digits - 1 - int(np.floor(np.log10(abs(float(text))))), 0)
+        text = f"{float(text):.{decimals}f}"
+    return text

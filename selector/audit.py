@@ -192,15 +192,17 @@ def missing_findings(library: Library) -> pd.DataFrame:
 def data_quality(library: Library) -> pd.DataFrame:
     """Every data-quality finding, errors first, then by row and column.
 
-    The loader's problems come first; a plausibility finding at a cell the loader
-    already reported is not repeated.  Load the library with ``strict=False`` to
+    The loader's problems come first; a plausibility or missing-value finding at a
+    cell the loader already reported is not repeated.  Load the library with ``strict=False`` to
     see cells the loader would reject.
     """
     loader = loader_findings(library)
-    own = plausibility_findings(library)
     seen = set(zip(loader["row"], loader["column"]))
-    own = own[[(r, c) not in seen for r, c in zip(own["row"], own["column"])]]
-    parts = [f for f in (loader, own, missing_findings(library)) if not f.empty]
+
+    def unseen(frame: pd.DataFrame) -> pd.DataFrame:
+        return frame[[(r, c) not in seen for r, c in zip(frame["row"], frame["column"])]]
+    parts = [f for f in (loader, unseen(plausibility_findings(library)),
+                         unseen(missing_findings(library))) if not f.empty]
     if not parts:
         return pd.DataFrame(columns=FINDING_COLUMNS)
     frame = pd.concat(parts, ignore_index=True)

@@ -9,6 +9,7 @@ import pandas as pd
 from .audit import ERROR, Audit
 from .report import clean, to_json, write_csv
 
+CALLOUTS = 8  # single-source cells named in the text
 TABLE_ROWS = 40  # findings shown in the terminal; the machine formats give all
 # Our coverage scheme, from "nothing" to "plenty" (rich styles).
 CELL_STYLES = [(0, "bold white on dark_red"), (1, "bold black on dark_orange"),
@@ -160,8 +161,10 @@ def _callouts(audit: Audit) -> list[str]:
     lines = []
     single = c[c["single_source"]]
     if len(single):
-        lines.append("Single-source cells: " + "; ".join(
-            f"{r.profile} ({r.sources})" for r in single.itertuples()))
+        shown = "; ".join(f"{r.profile} ({r.sources})" for r in single.head(CALLOUTS)
+                          .itertuples())
+        more = f"; … and {len(single) - CALLOUTS} more" if len(single) > CALLOUTS else ""
+        lines.append(f"Single-source cells ({len(single)}): {shown}{more}")
     legacy = c[c["legacy_only"]]
     if len(legacy):
         lines.append("Covered only by nrnd/obsolete parts: " + "; ".join(

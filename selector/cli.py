@@ -140,14 +140,14 @@ def emit(text: str | None) -> None:
 
 
 def input_paths(args) -> list[str]:
-    """Every existing file named on the command line (and the default library):
-    the files this run reads, which it must never write."""
+    """Every existing file or folder named on the command line (and the default
+    library): what this run reads, which it must never write over."""
     paths = []
     for name, value in vars(args).items():
         if name == "output" or callable(value):
             continue
         for item in value if isinstance(value, (list, tuple)) else [value]:
-            if isinstance(item, (str, os.PathLike)) and str(item) and Path(item).is_file():
+            if isinstance(item, (str, os.PathLike)) and str(item) and Path(item).exists():
                 paths.append(str(item))
     if "library" in vars(args) and not args.library:
         paths.append(str(DEMO_LIBRARY))

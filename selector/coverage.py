@@ -53,6 +53,9 @@ PRECISIONS: dict[str, float] = {"1 mV": 1e-3, "10 mV": 1e-2, "100 mV": 0.1}
 GRID_GAIN = 10.0  # non-inverting
 GRID_SWING = (0.1, 0.9)  # full-scale output from 10 % to 90 % of the supply span
 GRID_LOAD = "10k"  # a typical next stage or converter input (common practice)
+# A fixed E96 gain-10 network (1 + 9.09k/1.01k = 10.00): every cell loads the output
+# and sees the feedback pole alike, and deriving the grid needs no network search.
+GRID_NETWORK = ("9k09", "1k01")
 GRID_TEMPERATURE = ("0 C", "70 C")  # so offset drift counts (ΔT = 45 °C)
 
 
@@ -61,8 +64,9 @@ def standard_grid() -> pd.DataFrame:
     ``bandwidth``, ``precision`` (labels) and ``brief`` (a validated :class:`Brief`).
 
     Every profile is a gain-10 non-inverting stage whose output spans 10 %–90 % of
-    the rails (input = output / 10, no offset), into 10 kΩ, over 0–70 °C, with the
-    default 1 % gain error and 45° phase margin, active parts only.
+    the rails (input = output / 10, no offset), with Rf = 9.09 kΩ and Rg = 1.01 kΩ,
+    into 10 kΩ, over 0–70 °C, with the default 1 % gain error and 45° phase margin,
+    active parts only.
     """
     rows = []
     for supply, (v_pos, v_neg) in SUPPLY_CLASSES.items():
@@ -81,6 +85,7 @@ def standard_grid() -> pd.DataFrame:
                     "topology": "non-inverting",
                     "signal": signal,
                     "output": {"gain": GRID_GAIN, "load_resistance": GRID_LOAD},
+                    "network": {"rf": GRID_NETWORK[0], "rg": GRID_NETWORK[1]},
                     "supply": {"positive": f"{v_pos:g} V", "negative": f"{v_neg:g} V"},
                     "limits": {"dc_error": f"{budget:g} V",
                                "temperature_min": GRID_TEMPERATURE[0],

@@ -32,7 +32,8 @@ SHOWN = 5  # candidates listed in an error message
 # Package families, normalised (lower case, no separators); a pin count may follow.
 _PACKAGE_WORDS = ("soic", "sot23", "sot", "sc70", "msop", "tssop", "ssop", "dfn", "qfn",
                   "son", "pdip", "dip", "wlcsp", "csp", "bga", "to92", "to220", "so")
-_PACKAGE_RE = re.compile(rf"^(?P<stem>.*\d[a-z]?)(?:{'|'.join(_PACKAGE_WORDS)})\d*$")
+_PACKAGE_RE = re.compile(rf"(?=(?:{'|'.join(_PACKAGE_WORDS)})\d*$)")
+_STEM_END_RE = re.compile(r"\d[a-z]?$")  # a key stem ends in digits, maybe a grade letter
 
 
 @dataclass
@@ -67,8 +68,11 @@ def strip_package(normal: str, packages: Iterable[str] = ()) -> str:
             stem = normal[: -len(package)]
             if re.search(r"\d", stem):
                 return stem
-    found = _PACKAGE_RE.match(normal)
-    return found.group("stem") if found else normal
+    for found in _PACKAGE_RE.finditer(normal):  # earliest start first: the longest suffix
+        stem = normal[:found.start()]
+        if _STEM_END_RE.search(stem):
+            return stem
+    return normal
 
 
 def normalise_part(text: str, packages: Iterable[str] = ()) -> str:

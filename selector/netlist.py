@@ -8,8 +8,9 @@ figures, no vendor model:
   pole at GBW/A_OL, method §2); its current is clipped at ±SR·C1, so the output
   cannot move faster than the slew rate;
 - a second pole at GBW·tan(pm) (method §6), through a unity buffer and an RC;
-- the output clamped to [V− + swing_low, V+ − swing_high] of the brief's supply;
-- the open-loop output resistance ``ro`` in series with the output.
+- the output pin clamped to [V− + swing_low, V+ − swing_high] of the brief's supply
+  (the clamp acts at the pin, so the limit holds whatever the load);
+- the open-loop output resistance ``ro``: V(out) = V(internal) − ro·I_out.
 
 Missing figures are replaced as the netlist's comments say (A_OL 140 dB, no second
 pole, ideal swing, 1 mΩ output).  Input common-mode limits are not modelled.
@@ -98,11 +99,14 @@ def model(part: PartFigures, supply: tuple[float, float]) -> tuple[str, list[str
     v_neg, v_pos = supply
     low = v_neg + (part.swing_low if math.isfinite(part.swing_low) else 0.0)
     high = v_pos - (part.swing_high if math.isfinite(part.swing_high) else 0.0)
-    lines.append(f"Bout n3 0 V = max({_num(low)}, min({_num(high)}, V({node})))")
+    # output resistance and swing limit in one source: V(out) = V(n2) − Ro·I_out,
+    # clipped to the swing limits at the pin, so the limit holds whatever the load
     ro = part.ro if math.isfinite(part.ro) and part.ro > 0 else RO_MISSING
     if ro is RO_MISSING:
         notes.append("ro not given: 1 mΩ output")
-    lines += [f"Ro n3 out {_num(ro)}", f".ends {model_name(part)}"]
+    lines += [f"Bout n3 0 V = max({_num(low)}, min({_num(high)}, "
+              f"V({node}) - {_num(ro)}*I(Vsense)))",
+              "Vsense n3 out DC 0", f".ends {model_name(part)}"]
     return "\n".join(lines), notes
 
 

@@ -240,21 +240,20 @@ def feedback_factor(frequency, rf, rg_side, cin, cf=0.0):
     return yf / (yf + yg)
 
 
-def _amplifier(frequency, part: PartFigures, load_pole=math.inf):
+def _amplifier(frequency, part: PartFigures, load_pole=math.inf, load_factor=1.0):
     """A(jf)·H2(jf)·HL(jf): single-pole A (method §2) times the second pole from pm
-    and the capacitive-load pole (method §6)."""
+    and the output stage into its load (method §6): ``load_factor`` = R'/(R' + Ro)
+    and ``load_pole`` = 1/(2π·(Ro ∥ R')·C_L), R' the resistive load (arrays allowed)."""
     f = np.asarray(frequency, dtype=float)
     aol = part.aol if math.isfinite(part.aol) else np.inf
     value = rel.open_loop(f, part.gbw, aol)
     if math.isfinite(part.pm):
         value = value / (1 + 1j * f / rel.second_pole(part.gbw, part.pm))
-    if math.isfinite(load_pole):
-        value = value / (1 + 1j * f / load_pole)
-    return value
+    return value * np.asarray(load_factor) / (1 + 1j * f / np.asarray(load_pole, dtype=float))
 
 
 def loop_margin(part: PartFigures, rf, rg_side, cin, cf=0.0, load_pole=math.inf,
-                iterations: int = 70):
+                iterations: int = 70, load_factor=1.0):
     """Crossover (Hz) and phase margin (°) of L = A·H2·HL·β, vectorised over the
     candidates (bisection on log f; |L| falls with f).  180° where |L| < 1 at 1 mHz."""
     rf = np.atleast_1d(np.asarray(rf, dtype=float))
@@ -263,7 +262,8 @@ def loop_margin(part: PartFigures, rf, rg_side, cin, cf=0.0, load_pole=math.inf,
                         for x in (rg_side, cin, cf))
 
     def loop(f):
-        return _amplifier(f, part, load_pole) * feedback_factor(f, rf, rg_side, cin, cf)
+        return (_amplifier(f, part, load_pole, load_factor)
+                * feedback_factor(f, rf, rg_side, cin, cf))
 
     low, high = np.full(shape, -3.0), np.full(shape, 12.0)
     never = np.abs(loop(10.0 ** low)) < 1
@@ -277,47 +277,53 @@ def loop_margin(part: PartFigures, rf, rg_side, cin, cf=0.0, load_pole=math.inf,
     phase = np.angle(rel.open_loop(crossing, part.gbw, aol), deg=True)
     if math.isfinite(part.pm):
         phase = phase - np.degrees(np.arctan(crossing / rel.second_pole(part.gbw, part.pm)))
-    if math.isfinite(load_pole):
-        phase = phase - np.degrees(np.arctan(crossing / load_pole))
+    phase = phase - np.degrees(np.arctan(crossing / np.asarray(load_pole, dtype=float)))
     phase = phase + np.angle(feedback_factor(crossing, rf, rg_side, cin, cf), deg=True)
     return np.where(never, np.nan, crossing), np.where(never, 180.0, 180.0 + phase)
 
 
 def closed_loop(frequency, part: PartFigures, topology, rf, rg, source=0.0, cin=0.0,
-                cf=0.0, load_pole=math.inf):
+                cf=0.0, load_pole=math.inf, cin_diff=0.0, load_factor=1.0):
     """Closed-loop gain vo/vin (complex) of the stage, by nodal analysis at the −
-    input: non-inverting A·H/(1 + A·H·β); inverting −A·H·(Y_g/Y)/(1 + A·H·β) with
-    Y = 1/(Rg+Rs) + jωC_in + 1/Zf.  ``frequency`` broadcasts against the resistors."""
+    input with Y = 1/(Rg+Rs) + jωC_in + 1/Zf (C_in includes ``cin_diff``):
+    non-inverting A·H·(1 − jωC_diff/Y)/(1 + A·H·β) — the + input drives the
+    capacitance between the inputs — and inverting −A·H·(1/(Rg+Rs))/Y/(1 + A·H·β).
+    ``frequency`` broadcasts against the resistors."""
     f = np.asarray(frequency, dtype=float)
     rg_side = rg + source if topology == "inverting" else rg
-    amp = _amplifier(f, part, load_pole)
+    amp = _amplifier(f, part, load_pole, load_factor)
     beta = feedback_factor(f, rf, rg_side, cin, cf)
-    if topology != "inverting":
-        return amp / (1 + amp * beta)
     s = 2j * np.pi * f
     y = 1 / rg_side + s * cin + 1 / rf + s * cf
+    if topology != "inverting":
+        return amp * (1 - s * cin_diff / y) / (1 + amp * beta)
     return -amp * (1 / rg_side) / y / (1 + amp * beta)
 
 
 def bandwidth_3db(part: PartFigures, topology, rf, rg, source=0.0, cin=0.0, cf=0.0,
-                  load_pole=math.inf, iterations: int = 60) -> np.ndarray:
+                  load_pole=math.inf, iterations: int = 60, cin_diff=0.0,
+                  load_factor=1.0) -> np.ndarray:
     """First frequency (Hz) where |A_cl| falls 3 dB below its value at 1 Hz,
     vectorised over candidates.  Peaking above the low-frequency gain is passed over
     by scanning a log grid before the bisection."""
     rf = np.atleast_1d(np.asarray(rf, dtype=float))
     rg = np.broadcast_to(np.asarray(rg, dtype=float), rf.shape)
     cf = np.broadcast_to(np.asarray(cf, dtype=float), rf.shape)
-    ref = np.abs(closed_loop(1.0, part, topology, rf, rg, source, cin, cf, load_pole))
+    load_pole = np.broadcast_to(np.asarray(load_pole, dtype=float), rf.shape)
+    load_factor = np.broadcast_to(np.asarray(load_factor, dtype=float), rf.shape)
+    ref = np.abs(closed_loop(1.0, part, topology, rf, rg, source, cin, cf, load_pole,
+                             cin_diff, load_factor))
     grid = np.logspace(0, 11, 441)
     mag = np.abs(closed_loop(grid[:, None], part, topology, rf[None, :], rg[None, :],
-                             source, cin, cf[None, :], load_pole))
+                             source, cin, cf[None, :], load_pole[None, :], cin_diff,
+                             load_factor[None, :]))
     below = mag < ref[None, :] / math.sqrt(2)
     first = np.where(below.any(axis=0), below.argmax(axis=0), len(grid) - 1)
     low, high = np.log10(grid[np.maximum(first - 1, 0)]), np.log10(grid[first])
     for _ in range(iterations):
         middle = (low + high) / 2
         m = np.abs(closed_loop(10.0 ** middle, part, topology, rf, rg, source, cin, cf,
-                               load_pole))
+                               load_pole, cin_diff, load_factor))
         fell = m < ref / math.sqrt(2)
         low, high = np.where(fell, low, middle), np.where(fell, middle, high)
     return np.where(below.any(axis=0), 10.0 ** ((low + high) / 2), np.nan)
@@ -380,23 +386,31 @@ def level_effects(candidates: pd.DataFrame, stage: Stage, part: PartFigures) -> 
     out["bias_error"] = np.abs(part.ib) * rf if math.isfinite(part.ib) else np.nan
     out["f_fb"] = rel.feedback_pole(req, cin)
     figures = part if math.isfinite(part.gbw) else _typical_loop(part)
-    load_pole = (1 / (2 * np.pi * part.ro * stage.load_capacitance)
-                 if stage.load_capacitance > 0 and math.isfinite(part.ro) and part.ro > 0
-                 else math.inf)
-    crossover, pm = loop_margin(figures, rf, rg_side, cin, 0.0, load_pole)
+    # the output stage into its resistive load R' = R_L ∥ (network): the divider
+    # Ro/R' costs loop gain, and C_L makes a pole with Ro ∥ R'
+    ro = part.ro if math.isfinite(part.ro) else 0.0
+    loaded = rel.parallel(stage.load_resistance, rf if inverting else rf + rg)
+    load_factor = loaded / (loaded + ro)
+    load_pole = (1 / (2 * np.pi * rel.parallel(ro, loaded) * stage.load_capacitance)
+                 if stage.load_capacitance > 0 and ro > 0 else np.full(rf.shape, np.inf))
+    crossover, pm = loop_margin(figures, rf, rg_side, cin, 0.0, load_pole,
+                                load_factor=load_factor)
     out["crossover"], out["pm"] = crossover, pm
     cf = capacitor_nearest_e12(rg_side * cin / rf)
     short = pm < stage.phase_margin_min
     cf = np.where(short, cf, np.nan)
     out["cf"] = cf
     out["f_cf"] = np.where(short, 1 / (2 * np.pi * rf * np.nan_to_num(cf, nan=1.0)), np.nan)
-    _, pm_cf = loop_margin(figures, rf, rg_side, cin, np.nan_to_num(cf), load_pole)
+    _, pm_cf = loop_margin(figures, rf, rg_side, cin, np.nan_to_num(cf), load_pole,
+                           load_factor=load_factor)
     out["pm_cf"] = np.where(short, pm_cf, np.nan)
     topology = "inverting" if inverting else "non-inverting"
+    c_diff = 0.0 if inverting or not math.isfinite(part.cin_diff) else part.cin_diff
     out["bw"] = bandwidth_3db(figures, topology, rf, rg, rs if inverting else 0.0, cin,
-                              0.0, load_pole)
+                              0.0, load_pole, cin_diff=c_diff, load_factor=load_factor)
     bw_cf = bandwidth_3db(figures, topology, rf, rg, rs if inverting else 0.0, cin,
-                          np.nan_to_num(cf), load_pole)
+                          np.nan_to_num(cf), load_pole, cin_diff=c_diff,
+                          load_factor=load_factor)
     out["bw_cf"] = np.where(short, bw_cf, np.nan)
     # normalised figures: ≤ 1 is comfortable
     iout = part.iout if math.isfinite(part.iout) else TYPICAL.iout

@@ -196,7 +196,7 @@ def _finish(solution: OffsetSolution, g: float, c: float, x, wanted_y, z_in, cm)
     solution.endpoint_error = float(np.max(np.abs(y - wanted_y)))
     solution.input_impedance = float(z_in)
     solution.common_mode = (float(min(cm)), float(max(cm)))
-    if solution.kind == "inverting" or solution.kind == "reference-at-plus":
+    if solution.kind == "reference-at-plus" or g < 0:
         solution.noise_gain = float(1 - g)
     else:
         solution.noise_gain = float(1 + solution.rf / solution.rg)

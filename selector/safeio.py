@@ -8,7 +8,8 @@ Every file the tool writes (``--output``, plots, netlists, schematics) goes thro
   half-written file and an interrupted run leaves the old file untouched;
 - an existing file is refused unless ``force`` is set;
 - a destination that is one of the command's input files (the library, the brief,
-  compared after resolving links) is always refused, ``force`` or not.
+  compared after resolving links and by inode), or an existing brief or library
+  (``.toml``, ``.csv``) inside an input folder, is always refused, ``force`` or not.
 
 Problems are raised as :class:`~selector.errors.InputError` naming the path, so
 the command line reports them as one message with exit status 2.
@@ -34,6 +35,20 @@ def same_file(a: str | os.PathLike, b: str | os.PathLike) -> bool:
     return pa.resolve() == pb.resolve()
 
 
+#: files a command may read from an input folder (briefs, libraries)
+READABLE_SUFFIXES = (".toml", ".csv")
+
+
+def _inside(path: Path, folder: str | os.PathLike) -> bool:
+    """True when ``path`` lies somewhere under ``folder`` (an input folder's files
+    may be inputs themselves, so an existing file there is never replaced)."""
+    try:
+        path.resolve().relative_to(Path(folder).resolve())
+        return True
+    except ValueError:
+        return False
+
+
 def check_destination(path: str | os.PathLike, force: bool = False,
                       inputs: Iterable[str | os.PathLike] = ()) -> Path:
     """Check that ``path`` may be written; returns it as a :class:`Path`.
@@ -46,7 +61,11 @@ def check_destination(path: str | os.PathLike, force: bool = False,
     if not source.strip():
         raise InputError("--output: empty file name")
     for given in inputs:
-        if given is not None and same_file(target, given):
+        if given is None:
+            continue
+        if same_file(target, given) or (Path(given).is_dir() and target.is_file()
+                                        and target.suffix.lower() in READABLE_SUFFIXES
+                                        and _inside(target, given)):
             raise InputError(f"{source}: refusing to write over an input of this "
                              f"command ({given}); choose another output file")
     if target.is_dir():

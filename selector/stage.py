@@ -66,7 +66,7 @@ def wanted_line(brief: Brief) -> tuple[float, float]:
     return gain, offset or 0.0
 
 
-def design(brief: Brief, part: net.PartFigures | None = None, series: str = "E96",
+def design(brief: Brief, part: net.PartFigures | None = None, series: str = "auto",
            tolerance: float | None = None) -> StageDesign:
     """Design the network of ``brief`` (see the module text)."""
     if brief.topology == "follower":

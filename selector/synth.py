@@ -118,7 +118,9 @@ DIGITS = 3  # significant figures written
 @dataclass
 class Synthetic:
     """A generated library: ``cells`` (text, the CSV body), ``planted`` (key_a, key_b,
-    kind) and ``values`` (the SI figures before they were written as text)."""
+    kind: the original key and its near-duplicate) and ``values`` (one row per part, in
+    file order: the SI figures before they were rounded to 3 significant figures and
+    written as text; NaN where the cell is empty)."""
 
     cells: pd.DataFrame
     planted: pd.DataFrame
@@ -198,7 +200,8 @@ def figures(n: int, rng: np.random.Generator) -> pd.DataFrame:
         "family": f["name"].to_numpy(dtype=object), "gbw": gbw, "slew": slew,
         "supply_min": supply_min, "supply_max": supply_max, "swing_low": swing_low,
         "swing_high": swing_high, "cm_low": cm_low, "cm_high": cm_high, "rri": rri,
-        "rro": rro, "vos": vos, "vos_drift": drift, "ib": ib, "aol": aol_db, "pm": pm,
+        "rro": rro, "vos": vos, "vos_drift": drift, "ib": ib, "aol": 10 ** (aol_db / 20),
+        "pm": pm,
         "en": en, "in": in_, "en_corner": corner, "cin_cm": cin_cm, "cin_diff": cin_diff,
         "ro": _lognormal(rng, f["ro"], 0.15, n), "iout": _lognormal(rng, f["iout"], 0.1, n),
         "iq": iq, "temp_min": temps[:, 0], "temp_max": temps[:, 1], "channels": channels,
@@ -274,8 +277,9 @@ def write_cells(name: str, si: np.ndarray, rng: np.random.Generator) -> np.ndarr
                       rng.integers(1, len(notations), n)) if len(notations) > 1 else np.zeros(n, int)
     scales = np.array([s for s, _ in notations])[choice]
     suffix = np.array([t for _, t in notations], dtype=object)[choice]
-    if name == "aol":  # dB either way; the figure is stored in dB already
-        scales = np.ones(n)
+    if name == "aol":  # written in dB (the header's unit) either way
+        with np.errstate(divide="ignore", invalid="ignore"):
+            si, scales = 20 * np.log10(si), np.ones(n)
     shown = _round_sig(si / scales)
     text = _text_of_numbers(np.where(np.isnan(shown), 0.0, shown)) + suffix
     return np.where(np.isnan(si), "", text).astype(object)
@@ -326,10 +330,10 @@ def generate(n: int, seed: int = 0, duplicates: int | None = None) -> Synthetic:
     cells["rro"] = _flag_text(values["rro"].to_numpy(), rng)
     cells["channels"] = values["channels"].astype(str).to_numpy(dtype=object)
     cells["package"] = np.where(rng.random(n) < MISSING["package"], "", values["package"])
+    values["package"], values["family"] = cells["package"], cells["family"]
     cells["status"] = np.where(rng.random(n) < 0.1, pd.Series(values["status"]).str.upper(),
                                values["status"])
     cost = values["unit_cost"].to_numpy(dtype=float)
-    cost = np.where(rng.random(n) < MISSING["unit_cost"], np.nan, cost)
     cells["unit_cost"] = np.where(np.isnan(cost), "", _text_of_numbers(np.nan_to_num(cost)))
     stock = values["stock"].to_numpy(dtype=float)
     cells["stock"] = np.where(np.isnan(stock), "",

@@ -57,6 +57,12 @@ BAD_BRIEFS = [
      "channels", "expected a whole number"),
     ("wrong type, text", _replace('topology = "non-inverting"', "topology = 3"),
      "topology", "expected text"),
+    ("wrong type, true/false", _replace('min = "-0.1 V"', "min = true"),
+     "signal.min", "expected a quantity with its unit, got true/false"),
+    ("wrong type, list", lambda t: t + '[limits]\nnoise_bandwidth = ["1 kHz"]\n',
+     "limits.noise_bandwidth", "[low, high]"),
+    ("channels below 1", lambda t: _set(t, "", "channels = 0"), "channels",
+     "at least 1"),
     ("wrong unit", _replace('frequency = "1 kHz"', 'frequency = "1 V"'),
      "signal.frequency", "expected frequency"),
     ("bare number", _replace('positive = "5 V"', "positive = 5"),
@@ -76,6 +82,10 @@ BAD_BRIEFS = [
      .replace('rf = "9k"', 'rf = "79k"'), "output.gain", "outside the supply rails"),
     ("Rf/Rg disagree > 0.5 %", _replace('rf = "9k"', 'rf = "9k2"'),
      "network.rf", "within 0.5 %"),
+    # ±0.1 V → ±1 V asks for G = 10; 1 + 9.1k/1k = 10.1 is 1 % off
+    ("Rf/Rg disagree with the output range", lambda t: t.replace(
+        "gain = 10", 'min = "-1 V"\nmax = "1 V"').replace('rf = "9k"', 'rf = "9k1"'),
+     "network.rf", "output.min/max asks for 10"),
     ("reference outside the rails", lambda t: _set(t, "network", 'reference = "7 V"'),
      "network.reference", "outside the supply rails"),
     ("zero frequency with a sine", lambda t: t.replace('frequency = "1 kHz"',

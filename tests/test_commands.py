@@ -101,6 +101,7 @@ def test_shortlist_json_shape_and_order(cli, name):
     scores = [e["score"] for e in listed]
     assert scores == sorted(scores, reverse=True)
     for entry in data["near_misses"]:
+        assert {"part", "score", "binding", "checks", "failed"} <= set(entry)
         assert 1 <= len(entry["failed"]) <= 2
         _check_entry(entry)
         assert {entry["checks"][n]["status"] for n in entry["failed"]} == {"fail"}

@@ -28,7 +28,7 @@ T_ROOM = 298.15
 SCALE = {  # unit → SI factor, for the spellings the demo files use
     "": 1.0, "V": 1.0, "mV": 1e-3, "uV": 1e-6, "uV/C": 1e-6, "pA": 1e-12, "nA": 1e-9,
     "MHz": 1e6, "kHz": 1e3, "Hz": 1.0, "V/us": 1e6, "deg": 1.0, "nV/rtHz": 1e-9,
-    "fA/rtHz": 1e-15, "pF": 1e-12, "ohm": 1.0, "mA": 1e-3, "uA": 1e-6, "C": 1.0,
+    "fA/rtHz": 1e-15, "pF": 1e-12, "nF": 1e-9, "ohm": 1.0, "mA": 1e-3, "uA": 1e-6, "C": 1.0,
     "k": 1e3, "%": 1e-2,
 }
 
@@ -135,7 +135,7 @@ def hand_margins(brief, part, derived):
     c_in = part["cin_cm"] + part["cin_diff"] + si(n.get("stray_capacitance", "0 pF"))
     poles = [part["gbw"] * math.tan(math.radians(part["pm"])),  # §6
              1 / (2 * math.pi * req * c_in)]
-    c_load = si(o.get("load_capacitance", "0 pF").replace("nF", "000 pF"))
+    c_load = si(o.get("load_capacitance", "0 pF"))
     if c_load:
         poles.append(1 / (2 * math.pi * part["ro"] * c_load))
     margins["phase_margin"] = phase_margin(part["gbw"], part["aol"], ng, poles) / si(

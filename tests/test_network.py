@@ -4,7 +4,6 @@ Every check names its outside source.  Part keys and figures are invented.
 """
 from __future__ import annotations
 
-import json
 import math
 
 import control
@@ -247,3 +246,32 @@ def test_network_command_with_a_part_and_a_schematic(cli, tmp_path):
 def test_network_command_bad_input_is_one_message(cli, argv, message):
     code, out, err = cli("network", DEMO_BRIEFS / "hydrophone.toml", *argv)
     assert code == 2 and message in err and "Traceback" not in err
+
+
+def test_netlist_command_writes_atomically_and_never_over_a_file(cli, tmp_path):
+    target = tmp_path / "stage.cir"
+    brief = DEMO_BRIEFS / "bridge_offset.toml"
+    code, out, err = cli("netlist", brief, "--part", "FH-3420", "--output", target)
+    assert code == 0 and out == ""
+    text = target.read_text()
+    # the summing network as designed: R1 from the source, R2 from the 3.3 V rail
+    assert "R1 src inp" in text and "R2 vpos inp" in text and ".tran" in text
+    assert not list(tmp_path.glob(".*tmp"))  # no temporary file left behind
+    code, out, err = cli("netlist", brief, "--part", "FH-3420", "--output", target)
+    assert code == 2 and "--force" in err
+    code, out, err = cli("netlist", brief, "--part", "FH-3420", "--output", brief)
+    assert code == 2 and "input" in err          # never over the brief
+    code, out, err = cli("netlist", brief, "--part", "FH-3420", "--cf", "lots")
+    assert code == 2 and "--cf" in err and "Traceback" not in err
+
+
+def test_missing_simulator_fails_in_ci_and_skips_locally(monkeypatch):
+    from test_spice import require_ngspice
+    from selector import netlist
+    monkeypatch.setattr(netlist.shutil, "which", lambda name: None)
+    monkeypatch.setenv("SELECTOR_REQUIRE_NGSPICE", "1")
+    with pytest.raises(pytest.fail.Exception, match="SELECTOR_REQUIRE_NGSPICE=1"):
+        require_ngspice()
+    monkeypatch.delenv("SELECTOR_REQUIRE_NGSPICE")
+    with pytest.raises(pytest.skip.Exception, match="not installed"):
+        require_ngspice()

@@ -55,17 +55,28 @@ def fingerprint(path: Path) -> tuple[str, int]:
     return hashlib.sha256(path.read_bytes()).hexdigest(), path.stat().st_mtime_ns
 
 
-def argv_for(name: str, brief: Path, library: Path) -> list[str]:
-    """Arguments for a registered command, built from its own parser."""
+# options that name a file the command writes besides --output -> file suffix
+SIDE_OUTPUTS = {"schematic": ".svg", "plot": ".png"}
+
+
+def argv_for(name: str, brief: Path, library: Path, design: Path,
+             side_dir: Path | None = None) -> list[str]:
+    """Arguments for a registered command, built from its own parser: positional and
+    required arguments get an input of the right kind; with ``side_dir`` the options
+    that write a file (a schematic, a plot) get one there."""
     parser = cli.build_parser()
     sub = next(a for a in parser._actions if isinstance(a, argparse._SubParsersAction))
     command = sub.choices[name]
     argv = [name]
     for action in command._actions:
+        if action.dest in SIDE_OUTPUTS and side_dir is not None:
+            argv += [action.option_strings[0],
+                     str(side_dir / f"{name}-{action.dest}{SIDE_OUTPUTS[action.dest]}")]
+            continue
         if action.option_strings and not action.required:
             continue
-        value = {"brief": brief, "briefs": brief, "library": library, "part": A_PART,
-                 "parts": A_PART}.get(action.dest, brief)
+        value = {"brief": brief, "library": library, "part": A_PART,
+                 "paths": design, "briefs": design.parent}.get(action.dest, brief)
         argv += ([action.option_strings[0]] if action.option_strings else []) + [str(value)]
     options = {o for a in command._actions for o in a.option_strings}
     if "--library" in options and "--library" not in argv:
@@ -83,6 +94,11 @@ def inputs(tmp_path):
     for source in DEMO_BRIEFS:
         briefs.append(folder / source.name)
         shutil.copyfile(source, briefs[-1])
+    # a saved design: a brief that records its part (for commands that re-check)
+    design = folder / "design.toml"
+    design.write_text(f'part = "{A_PART}"\n' + (ROOT / "demo" / "briefs" /
+                                                "vibration.toml").read_text())
+    briefs.append(design)
     return folder, library, briefs
 
 
@@ -104,11 +120,13 @@ def test_commands_never_write_their_inputs(name, inputs, tmp_path, capsys):
     listing = sorted(os.listdir(folder))
     out_dir = tmp_path / "results"
     out_dir.mkdir()
-    runs = [(brief, "table", None) for brief in briefs]
-    runs += [(briefs[0], fmt, out_dir / f"result.{fmt}")
+    design = briefs[-1]
+    runs = [(brief, "table", None) for brief in (briefs[0], design)]
+    runs += [(design, fmt, out_dir / f"result.{fmt}")
              for fmt in ("table", "json", "csv", "markdown")]
     for brief, fmt, output in runs:
-        argv = argv_for(name, brief, library) + ["--format", fmt]
+        side = out_dir if fmt == "json" else None  # schematics and plots: once
+        argv = argv_for(name, brief, library, design, side) + ["--format", fmt]
         if output is not None:
             argv += ["--output", str(output)]
         status, events = run_recorded(argv, capsys)
@@ -124,8 +142,13 @@ def test_commands_never_write_their_inputs(name, inputs, tmp_path, capsys):
                        for _, p in events), events
     assert {p: fingerprint(p) for p in before} == before
     assert sorted(os.listdir(folder)) == listing  # nothing left beside the inputs
-    assert sorted(os.listdir(out_dir)) == [f"result.{f}" for f in
-                                           sorted(("table", "json", "csv", "markdown"))]
+    side_options = set(argv_for(name, design, library, design, out_dir)) - set(
+        argv_for(name, design, library, design))
+    for side_file in [o for o in side_options if o.startswith(str(out_dir))]:
+        assert Path(side_file).is_file(), f"{name} did not write {side_file}"
+    results = sorted(p for p in os.listdir(out_dir) if p.startswith("result."))
+    assert results == [f"result.{f}" for f in sorted(("table", "json", "csv", "markdown"))]
+    assert not [p for p in os.listdir(out_dir) if p.startswith(".")]  # no temporaries
 
 
 def test_output_matches_stdout_and_respects_force(inputs, tmp_path, capsys):
@@ -217,3 +240,17 @@ def test_destination_problems(tmp_path):
         safeio.write_text(tmp_path, "x")
     with pytest.raises(InputError, match="does not exist"):
         safeio.write_text(tmp_path / "missing" / "out.txt", "x")
+
+
+def test_existing_brief_inside_an_input_folder_is_never_replaced(tmp_path):
+    folder = tmp_path / "designs"
+    folder.mkdir()
+    saved = folder / "channel.toml"
+    saved.write_text("part = 'ZT-4410'\n")
+    with pytest.raises(InputError, match="refusing to write over an input"):
+        safeio.write_text(saved, "x", force=True, inputs=[folder])
+    assert saved.read_text() == "part = 'ZT-4410'\n"
+    report = folder / "report.md"  # a new file, or a non-input file, is fine
+    safeio.write_text(report, "one", inputs=[folder])
+    safeio.write_text(report, "two", force=True, inputs=[folder])
+    assert report.read_text() == "two"

@@ -39,6 +39,8 @@ PINT_CASES = [
     ("4.7 kohm", "ohm", "4.7 kiloohm", "ohm"),
     ("4.7k", "ohm", "4.7 kiloohm", "ohm"),
     ("100 R", "ohm", "100 ohm", "ohm"),
+    ("470 Ω", "ohm", "470 ohm", "ohm"),
+    ("22 ohm", "ohm", "22 ohm", "ohm"),
     ("2.2 Mohm", "ohm", "2.2 megaohm", "ohm"),
     ("1 meg", "ohm", "1 megaohm", "ohm"),
     ("1 %", "fraction", "1 percent", "dimensionless"),

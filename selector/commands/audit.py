@@ -9,7 +9,9 @@ from __future__ import annotations
 
 from ..audit import audit, load_briefs
 from ..audit_report import render_audit
-from ..cli import add_common, emit, input_paths, library_path
+from pathlib import Path
+
+from ..cli import add_common, emit, library_path
 
 EXAMPLE = ("example: selector audit\n"
            "         selector audit --library parts.csv --briefs designs/ --plot cover.png\n"
@@ -25,16 +27,24 @@ def add_arguments(parser) -> None:
                         "needs matplotlib; --force to replace a file)")
 
 
+def _inputs(args) -> list[str]:
+    """The files this run reads (never to be written over by --plot)."""
+    inputs = [library_path(args)]
+    if args.briefs and Path(args.briefs).is_dir():
+        inputs += [str(p) for p in Path(args.briefs).glob("*.toml")]
+    return inputs
+
+
 def run(args, console) -> int:
     if args.plot:
         from ..plot import check_plot_path
-        check_plot_path(args.plot, args.force, input_paths(args))
+        check_plot_path(args.plot, args.force, _inputs(args))
     briefs = load_briefs(args.briefs) if args.briefs else None
     result = audit(library_path(args), briefs)
     emit(render_audit(result, args.format, console))
     if args.plot:
         from ..plot import write_heatmap
-        write_heatmap(result, args.plot, args.force, input_paths(args))
+        write_heatmap(result, args.plot, args.force, _inputs(args))
         import sys
         print(f"selector: wrote {args.plot}", file=sys.stderr)
     return result.exit_status

@@ -7,6 +7,8 @@ capacitance, output resistance), with .ac and (for a sine) .tran analyses.
 The netlist goes to stdout, or with --output to a file written atomically."""
 from __future__ import annotations
 
+import math
+
 from ..brief import load_brief
 from ..cli import add_common, emit, library_path
 
@@ -29,7 +31,7 @@ def add_arguments(parser) -> None:
 def run(args, console) -> int:
     from ..library import load_library
     from ..netlist import build
-    from ..stage import design, find_part
+    from ..stage import find_part
     from ..units import parse_quantity
     from ..errors import InputError, UnitError
     brief = load_brief(args.brief)
@@ -57,14 +59,22 @@ def stage_solution(brief, part):
     """The network the netlist draws: the brief's Rf/Rg when it gives them (no
     offset), else the synthesised one for this part."""
     from ..offset import OffsetSolution
-    from ..stage import design, wanted_line
+    from ..stage import design
     if brief.topology == "follower":
-        gain, offset = wanted_line(brief)
         return OffsetSolution("none", 0.0, float("inf"), wanted=(1.0, 0.0),
                               common_mode=(brief.signal_min, brief.signal_max))
     result = design(brief, part)
     solution = result.solution
     if brief.rf is not None and brief.rg is not None and solution.kind in ("none",):
+        import numpy as np
+        from ..offset import _finish
         solution.rf, solution.rg = brief.rf, brief.rg
+        rs = brief.source_resistance
+        gain = (1 + brief.rf / brief.rg if brief.topology == "non-inverting"
+                else -brief.rf / (brief.rg + rs))
+        x = np.array([brief.signal_min, brief.signal_max])
+        wanted = np.array(solution.wanted_endpoints)
+        z_in = math.inf if brief.topology == "non-inverting" else brief.rg
+        _finish(solution, gain, 0.0, x, wanted, z_in, tuple(solution.common_mode))
         solution.notes.append("network from the brief")
     return solution

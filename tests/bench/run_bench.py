@@ -284,11 +284,13 @@ def _heavy_imports(command) -> list[str]:
     return sorted(names & {"matplotlib", "scipy", "schemdraw", "control", "duckdb"})
 
 
+# VmHWM (the peak RSS of this process image) rather than getrusage's ru_maxrss, which
+# Linux carries over from the forking parent across exec.
 MEMORY_PROBE = r"""
-import json, resource, sys, time
-def rss():
+import json, sys, time
+def rss(field="VmRSS:"):
     for line in open("/proc/self/status"):
-        if line.startswith("VmRSS:"):
+        if line.startswith(field):
             return int(line.split()[1]) * 1024
 from selector import derive, load_brief, load_library, shortlist
 after_import = rss()
@@ -298,7 +300,7 @@ loaded = time.perf_counter() - start
 start = time.perf_counter()
 result = shortlist(derive(load_brief(sys.argv[2])), library)
 ranked = time.perf_counter() - start
-print(json.dumps({"peak": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024,
+print(json.dumps({"peak": rss("VmHWM:"),
                   "after_import": after_import, "load": loaded, "shortlist": ranked,
                   "table": int(library.table.memory_usage(deep=True).sum()),
                   "numeric": int(library.table.select_dtypes("number")

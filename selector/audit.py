@@ -28,7 +28,8 @@ from rapidfuzz.process import cpdist
 
 from .brief import Brief, load_brief
 from .checks import REGISTRY
-from .coverage import coverage_grid, standard_grid, standard_profiles  # noqa: F401
+from .coverage import (coverage_grid, standard_grid, standard_profiles,  # noqa: F401
+                       standard_requirements)
 from .errors import InputError, Problem
 from .library import COLUMNS, NUMERIC, Library, load_library, normalise_key
 
@@ -54,7 +55,7 @@ LOWER_BETTER = {"supply_min", "swing_low", "swing_high", "cm_low", "cm_high", "v
                 "vos_drift", "ib", "en", "in", "en_corner", "cin_cm", "cin_diff", "ro",
                 "iq", "temp_min", "unit_cost"}
 MAGNITUDE = {"vos", "vos_drift", "ib"}
-DOMINANCE_BLOCK = 256  # candidate rows compared at once
+DOMINANCE_BLOCK = 64  # candidate rows compared at once
 
 
 # ------------------------------------------------------------------ data quality
@@ -226,16 +227,47 @@ def exact_duplicates(library: Library) -> pd.DataFrame:
                          "key": normal.to_numpy()[repeat]})
 
 
+_HASH_BASE = np.uint64(0x9E3779B97F4A7C15)  # odd: a polynomial hash modulo 2**64
+
+
 def _deletion_index(normal: list[str]) -> tuple[np.ndarray, np.ndarray]:
-    """(variant code, position) for each key and each key with one character deleted.
-    Two keys one insertion, deletion, substitution or adjacent swap apart share a
-    variant (the symmetric-delete idea); variants are hashed to integer codes."""
-    variants = [key[:cut] + key[cut + 1:] for key in normal for cut in range(len(key))]
-    owners = np.repeat(np.arange(len(normal)), [len(k) for k in normal])
-    codes, _ = pd.factorize(pd.Series(list(normal) + variants, dtype=object))
-    position = np.concatenate([np.arange(len(normal)), owners]).astype(np.int64)
-    combined = _sorted_unique(codes.astype(np.int64) * len(normal) + position)
-    return combined // max(len(normal), 1), combined % max(len(normal), 1)
+    """(variant hash, position), sorted, for each key and each key with one character
+    deleted.  Two keys one insertion, deletion, substitution or adjacent swap apart
+    share a variant (the symmetric-delete idea).
+
+    Variants are never built as strings: a polynomial hash of the code points
+    (modulo 2**64) gives every deletion from prefix and suffix sums, O(N·L) numpy
+    work.  Two different strings with one hash only add a candidate pair (it is then
+    scored), so a collision can never hide a duplicate.
+    """
+    count = len(normal)
+    width = max(1, max(len(k) for k in normal))
+    chars = np.array(normal, dtype=f"<U{width}").view(np.uint32).reshape(count, width)
+    chars = chars.astype(np.uint64)
+    length = (chars > 0).sum(axis=1)
+    powers = np.ones(width + 1, dtype=np.uint64)
+    with np.errstate(over="ignore"):
+        for i in range(1, width + 1):
+            powers[i] = powers[i - 1] * _HASH_BASE
+        prefix = np.zeros((count, width + 1), dtype=np.uint64)  # Σ_{i<c} x_i·P^i
+        for i in range(width):
+            prefix[:, i + 1] = prefix[:, i] + chars[:, i] * powers[i]
+        suffix = np.zeros((count, width + 1), dtype=np.uint64)  # Σ_{i≥c} x_i·P^(i−c)
+        for i in range(width - 1, -1, -1):
+            suffix[:, i] = chars[:, i] + suffix[:, i + 1] * _HASH_BASE
+        hashes = [prefix[:, width]]
+        positions = [np.arange(count)]
+        for cut in range(width):
+            keep = np.flatnonzero(length > cut)
+            hashes.append(prefix[keep, cut] + suffix[keep, cut + 1] * powers[cut])
+            positions.append(keep)
+    variant = np.concatenate(hashes)
+    position = np.concatenate(positions).astype(np.int64)
+    order = np.lexsort((position, variant))
+    variant, position = variant[order], position[order]
+    fresh = np.concatenate([[True], (variant[1:] != variant[:-1])
+                            | (position[1:] != position[:-1])])
+    return variant[fresh], position[fresh]
 
 
 def _sorted_unique(values: np.ndarray) -> np.ndarray:
@@ -253,9 +285,11 @@ def candidate_pairs(normal: pd.Series | list[str], max_group: int = MAX_GROUP) -
     if len(normal) < 2:
         return np.empty((0, 2), dtype=np.int64)
     variant, position = _deletion_index(normal)  # sorted by variant, then position
-    sizes = np.bincount(variant)
-    shared = sizes[variant] > 1
-    variant, position = variant[shared], position[shared]
+    starts = np.concatenate([[True], variant[1:] != variant[:-1]])
+    group = np.cumsum(starts) - 1
+    sizes = np.bincount(group)
+    shared = sizes[group] > 1
+    variant, position = group[shared], position[shared]
     found = []
     for offset in range(1, min(max_group, int(sizes.max()))):
         same = variant[:-offset] == variant[offset:]
@@ -388,7 +422,8 @@ def dominated(library: Library) -> pd.DataFrame:
 
     Vectorised: parts are grouped by package and channels, then each block of
     candidates is compared with the whole group by numpy broadcasting, one parameter
-    at a time (memory: block × group booleans).
+    at a time, dropping group members that can no longer dominate any row of the
+    block (memory: block × group booleans).
     """
     table = library.table
     status = table["status"].fillna("").astype(str).str.lower() if "status" in table \
@@ -410,23 +445,28 @@ def dominated(library: Library) -> pd.DataFrame:
         g = good[members]
         for start in range(0, len(members), DOMINANCE_BLOCK):
             block = g[start:start + DOMINANCE_BLOCK]
+            others = np.arange(len(members))  # members still able to dominate a row
             at_least = np.ones((len(block), len(members)), dtype=bool)
             better = np.zeros_like(at_least)
             for k in range(g.shape[1]):
-                column, candidate = g[:, k][None, :], block[:, k][:, None]
+                column, candidate = g[others, k][None, :], block[:, k][:, None]
                 if k in fixed_index:
                     at_least &= column == candidate
                 else:
                     at_least &= column >= candidate
                     better |= column > candidate
-                if not at_least.any():
+                alive = np.flatnonzero(at_least.any(axis=0))  # drop hopeless members
+                if len(alive) < len(others):
+                    others, at_least, better = others[alive], at_least[:, alive], \
+                        better[:, alive]
+                if not len(others):
                     break
-            order = np.arange(len(members))[None, :]
+            order = others[None, :]
             mine = np.arange(start, start + len(block))[:, None]
             wins = at_least & (better | (order < mine)) & (order != mine)
             hit = np.flatnonzero(wins.any(axis=1))
             found_rows.extend(members[start + hit].tolist())
-            found_by.extend(members[wins[hit].argmax(axis=1)].tolist())
+            found_by.extend(members[others[wins[hit].argmax(axis=1)]].tolist())
             found_count.extend(wins[hit].sum(axis=1).tolist())
     rows = np.asarray(found_rows, dtype=np.intp)
     by = np.asarray(found_by, dtype=np.intp)

@@ -181,6 +181,8 @@ def _convert(value, kind: str):
     if isinstance(value, bool) or not isinstance(value, (str, int, float)):
         raise TypeError(f"expected a quantity with its unit, got {_type_name(value)}")
     if isinstance(value, (int, float)):
+        if not math.isfinite(value):  # TOML nan / inf
+            raise UnitError(f"{value!r} is not a finite number")
         if value == 0:
             return 0.0
         raise UnitError(f"{value!r} has no unit; write it as a string with its unit, "

@@ -14,7 +14,7 @@ margin ≥ 1.  ``sense="headroom"`` checks give the smaller slack in the check's
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
@@ -39,6 +39,9 @@ class CheckResult:
     required: np.ndarray
     available: np.ndarray
     margin: np.ndarray
+    #: the status as int8 codes (0 pass, 1 fail, 2 unknown, 3 n/a; see STATUS_CODES),
+    #: for fast combination over many checks; None if only ``status`` was given
+    code: np.ndarray | None = field(default=None, repr=False)
 
 
 @dataclass(frozen=True)
@@ -80,20 +83,42 @@ class Parts(dict):
             return table[name].fillna("").astype(str)
         return pd.Series([""] * self.size, index=table.index)
 
+    def lowered(self, name: str) -> tuple[np.ndarray, np.ndarray]:
+        """(codes, distinct texts) of a text column in lower case, ``""`` for missing:
+        ``distinct[codes]`` is ``text(name).str.lower()``; a filter then works on the
+        few distinct values instead of every row."""
+        key = ("lowered", name)
+        if key not in self:
+            table = self.library.table
+            if name not in table:
+                self[key] = (np.zeros(self.size, dtype=np.intp), np.array([""], dtype=object))
+            else:
+                codes, uniques = pd.factorize(table[name], use_na_sentinel=True)
+                distinct = pd.Series(np.asarray(uniques, dtype=object), dtype=object)
+                distinct = np.append(distinct.astype(str).str.lower().to_numpy(dtype=object), "")
+                self[key] = (np.where(codes < 0, len(distinct) - 1, codes), distinct)
+        return self[key]
+
 
 def _full(size: int, value) -> np.ndarray:
     return np.full(size, value, dtype=float)
 
 
-_STATUS_OF_CODE = np.array([PASS, FAIL, UNKNOWN, NA], dtype=object)  # code -> status
+STATUS_CODES = (PASS, FAIL, UNKNOWN, NA)  # CheckResult.code i means STATUS_CODES[i]
+_STATUS_OF_CODE = np.array(STATUS_CODES, dtype=object)
+
+
+def _status_code(size: int, applicable: bool, missing, passed) -> np.ndarray:
+    """int8 status codes: 0 pass, 1 fail, 2 unknown (missing data), 3 n/a."""
+    if not applicable:
+        return np.full(size, 3, dtype=np.int8)
+    missing = np.broadcast_to(np.asarray(missing, dtype=bool), (size,))
+    passed = np.broadcast_to(np.asarray(passed, dtype=bool), (size,))
+    return np.where(missing, np.int8(2), (~passed).view(np.int8))
 
 
 def _status(size: int, applicable: bool, missing, passed) -> np.ndarray:
-    if not applicable:
-        return np.full(size, NA, dtype=object)
-    missing = np.broadcast_to(np.asarray(missing, dtype=bool), (size,))
-    passed = np.broadcast_to(np.asarray(passed, dtype=bool), (size,))
-    code = np.where(missing, 2, (~passed).view(np.int8))  # 0 pass, 1 fail, 2 unknown
+    code = _status_code(size, applicable, missing, passed)
     return _STATUS_OF_CODE[code]  # one shared str object per status: no per-row copies
 
 
@@ -140,11 +165,11 @@ def _broadcast(size, *arrays):
 
 def _result(name, size, applicable, missing, passed, required, available, margin):
     spec = REGISTRY[name]
-    status = _status(size, applicable, missing, passed)
+    code = _status_code(size, applicable, missing, passed)
     if not applicable:
         margin = _full(size, np.nan)
-    return CheckResult(name, spec.sense, spec.unit, spec.columns, status,
-                       required, available, margin)
+    return CheckResult(name, spec.sense, spec.unit, spec.columns, _STATUS_OF_CODE[code],
+                       required, available, margin, code)
 
 
 # ------------------------------------------------------------------ checks
@@ -354,17 +379,17 @@ def _filter(name, parts, applicable, missing, passed):
 
 @check("status", "filter", "", ("status",))
 def status(req: Requirements, parts: Parts) -> CheckResult:
-    text = parts.text("status").str.lower()
-    return _filter("status", parts, True, (text == "").to_numpy(),
-                   text.isin(req.brief.status).to_numpy())
+    codes, distinct = parts.lowered("status")
+    return _filter("status", parts, True, (distinct == "")[codes],
+                   np.isin(distinct, list(req.brief.status))[codes])
 
 
 @check("package", "filter", "", ("package",))
 def package(req: Requirements, parts: Parts) -> CheckResult:
     wanted = [p.lower() for p in (req.brief.packages or ())]
-    text = parts.text("package").str.lower()
-    return _filter("package", parts, bool(wanted), (text == "").to_numpy(),
-                   text.isin(wanted).to_numpy())
+    codes, distinct = parts.lowered("package")
+    return _filter("package", parts, bool(wanted), (distinct == "")[codes],
+                   np.isin(distinct, wanted)[codes])
 
 
 @check("cost", "filter", "count", ("unit_cost",))

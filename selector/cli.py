@@ -156,7 +156,7 @@ def input_paths(args) -> list[str]:
 
 def _run(args) -> int:
     output = getattr(args, "output", None)
-    if output is None:
+    if output is None or output == "-":  # "-o -": stdout, as usual for Unix tools
         return args.run(args, make_console(args))
     import io
 

@@ -2,8 +2,22 @@
 
 One row per part.  Headers are case-insensitive and may carry a unit in square
 brackets (``gbw [MHz]``) that applies to bare numbers in that column; a cell may
-carry its own unit instead (``2.4 MHz``).  Rows are numbered as in a spreadsheet:
-the header is row 1, the first part is row 2.
+carry its own unit instead (``2.4 MHz``).
+
+Header unit versus cell unit: a cell unit of the same dimension overrides the
+header unit (``2400 kHz`` under ``gbw [MHz]`` is 2.4 MHz).  The cell states its own
+unit explicitly, so reading it any other way would be a silent guess, and rejecting
+it would make users strip correct units from pasted figures; the header unit is only
+the default for bare numbers.  A cell unit of another dimension (``3 uA`` under
+``gbw [MHz]``) is an error naming the row and column.
+
+Hostile files: UTF-8 with or without a byte-order mark, UTF-16 with one, and
+Latin-1 for anything that is not valid UTF-8 are read; NUL bytes, semicolon- or
+tab-separated files, unbalanced quotes, rows wider than the header and cells over
+128 k characters are errors naming the row (and column where known).
+
+Rows are numbered as in a spreadsheet: the header is row 1 (after any blank rows
+above it), the first part is row 2, and a quoted cell with line breaks is one row.
 
 ``load_library`` returns a :class:`Library` whose ``table`` holds one float column
 (SI) per numeric parameter, booleans as 1.0/0.0/NaN, and text columns as strings;

@@ -5,7 +5,8 @@ slashes are ignored (:func:`selector.library.normalise_key`), and a trailing pac
 suffix (``-SOIC8``, ``/SOT23-5``, ``TSSOP14``, or any package named in the library's
 ``package`` column) is dropped.  Then:
 
-- one key equal after normalising: used silently (score 100);
+- the key spelled exactly as given, or else one key equal after normalising: used
+  silently (score 100);
 - otherwise rapidfuzz's ``fuzz.ratio`` (0–100) against every key: the best is used,
   with a visible note, when it scores at least :data:`ACCEPT` and leads the runner-up
   by at least :data:`LEAD` points;
@@ -113,6 +114,11 @@ def match_part(query: str, keys: pd.Series | Iterable[str], packages: Iterable[s
     if keys.empty:
         raise InputError(Problem(source, where, "the library has no parts"))
     packages = list(packages)
+    verbatim = np.flatnonzero(keys.astype(str).str.strip().to_numpy() == str(query).strip())
+    if len(verbatim) == 1:  # spelled exactly as the library spells it
+        position = int(verbatim[0])
+        return Match(str(query), str(keys.iloc[position]), position, 100.0, True,
+                     [(str(keys.iloc[position]), 100.0)])
     plain = normalise_key(keys.astype(str)).to_numpy()
     query_plain = normalise_key(pd.Series([str(query)])).iloc[0]
     hits = np.flatnonzero(plain == query_plain)

@@ -17,10 +17,11 @@ pole, ideal swing, 1 mΩ output).  Input common-mode limits are not modelled.
 
 The stage: the brief's sine (or DC) source with its source resistance, the network of
 a :class:`selector.offset.OffsetSolution` (Rf, Rg, divider or summing resistors), an
-optional Cf, the load R_L ∥ C_L, and a 0 V source ``Vinj`` between the amplifier
-output ``out`` and the feedback node ``fb``: with ``loop=True`` it carries the AC
-test signal, and the loop gain is T = −V(out)/V(fb) (voltage injection; accurate
-while the network's impedance is far above the output's).  ``.ac`` and (for a sine)
+optional Cf, the brief's stray capacitance at the − input, the load R_L ∥ C_L, and a
+0 V source ``Vinj`` between the amplifier output ``out`` and the feedback node ``fb``:
+with ``loop=True`` it carries the AC test signal, and the loop gain is
+T = −V(out)/V(fb) (voltage injection; accurate while the network's impedance is far
+above the output's).  ``.ac`` and (for a sine)
 ``.tran`` analyses follow.  :func:`simulate` runs ngspice in batch mode.
 """
 from __future__ import annotations
@@ -193,6 +194,8 @@ def build(brief: Brief, network: OffsetSolution, part: PartFigures, cf: float | 
         body.append(f"Rf fb inm {_num(network.rf)} ; {resistor_code(network.rf)}")
         if cf:
             body.append(f"Cf fb inm {_num(cf)}")
+    if brief.stray_capacitance > 0:
+        body.append(f"Cstray inm 0 {_num(brief.stray_capacitance)}")
     lines += body
     lines.append(f"Vinj fb out DC 0 AC {1 if loop else 0}")
     lines.append(f"XU {inp} inm out {model_name(part)}")

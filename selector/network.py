@@ -253,7 +253,7 @@ def _amplifier(frequency, part: PartFigures, load_pole=math.inf, load_factor=1.0
 
 
 def loop_margin(part: PartFigures, rf, rg_side, cin, cf=0.0, load_pole=math.inf,
-                iterations: int = 70, load_factor=1.0):
+                iterations: int = 48, load_factor=1.0):
     """Crossover (Hz) and phase margin (°) of L = A·H2·HL·β, vectorised over the
     candidates (bisection on log f; |L| falls with f).  180° where |L| < 1 at 1 mHz."""
     rf = np.atleast_1d(np.asarray(rf, dtype=float))
@@ -301,7 +301,7 @@ def closed_loop(frequency, part: PartFigures, topology, rf, rg, source=0.0, cin=
 
 
 def bandwidth_3db(part: PartFigures, topology, rf, rg, source=0.0, cin=0.0, cf=0.0,
-                  load_pole=math.inf, iterations: int = 60, cin_diff=0.0,
+                  load_pole=math.inf, iterations: int = 40, cin_diff=0.0,
                   load_factor=1.0) -> np.ndarray:
     """First frequency (Hz) where |A_cl| falls 3 dB below its value at 1 Hz,
     vectorised over candidates.  Peaking above the low-frequency gain is passed over
@@ -313,7 +313,7 @@ def bandwidth_3db(part: PartFigures, topology, rf, rg, source=0.0, cin=0.0, cf=0
     load_factor = np.broadcast_to(np.asarray(load_factor, dtype=float), rf.shape)
     ref = np.abs(closed_loop(1.0, part, topology, rf, rg, source, cin, cf, load_pole,
                              cin_diff, load_factor))
-    grid = np.logspace(0, 11, 441)
+    grid = np.logspace(0, 11, 221)
     mag = np.abs(closed_loop(grid[:, None], part, topology, rf[None, :], rg[None, :],
                              source, cin, cf[None, :], load_pole[None, :], cin_diff,
                              load_factor[None, :]))
@@ -401,17 +401,21 @@ def level_effects(candidates: pd.DataFrame, stage: Stage, part: PartFigures) -> 
     cf = np.where(short, cf, np.nan)
     out["cf"] = cf
     out["f_cf"] = np.where(short, 1 / (2 * np.pi * rf * np.nan_to_num(cf, nan=1.0)), np.nan)
-    _, pm_cf = loop_margin(figures, rf, rg_side, cin, np.nan_to_num(cf), load_pole,
-                           load_factor=load_factor)
-    out["pm_cf"] = np.where(short, pm_cf, np.nan)
+    pm_cf, bw_cf = np.full(rf.shape, np.nan), np.full(rf.shape, np.nan)
+    if short.any():  # only the candidates that need a Cf
+        _, pm_cf[short] = loop_margin(figures, rf[short], rg_side[short], cin, cf[short],
+                                      load_pole[short], load_factor=load_factor[short])
+    out["pm_cf"] = pm_cf
     topology = "inverting" if inverting else "non-inverting"
     c_diff = 0.0 if inverting or not math.isfinite(part.cin_diff) else part.cin_diff
     out["bw"] = bandwidth_3db(figures, topology, rf, rg, rs if inverting else 0.0, cin,
                               0.0, load_pole, cin_diff=c_diff, load_factor=load_factor)
-    bw_cf = bandwidth_3db(figures, topology, rf, rg, rs if inverting else 0.0, cin,
-                          np.nan_to_num(cf), load_pole, cin_diff=c_diff,
-                          load_factor=load_factor)
-    out["bw_cf"] = np.where(short, bw_cf, np.nan)
+    if short.any():
+        bw_cf[short] = bandwidth_3db(figures, topology, rf[short], rg[short],
+                                     rs if inverting else 0.0, cin, cf[short],
+                                     load_pole[short], cin_diff=c_diff,
+                                     load_factor=load_factor[short])
+    out["bw_cf"] = bw_cf
     # normalised figures: ≤ 1 is comfortable
     iout = part.iout if math.isfinite(part.iout) else TYPICAL.iout
     drive = np.maximum(i_net / (DRIVE_SHARE * iout),

@@ -183,6 +183,17 @@ class Qualification:
         }
 
 
+def library_warning(library: Library) -> str | None:
+    """A one-line note when a leniently loaded library had problems: those cells
+    are treated as missing, so the checks reading them are unknown (never a pass)."""
+    if not library.problems:
+        return None
+    count = len(library.problems)
+    return (f"{library.path}: {count} problem{'s' if count > 1 else ''} in the library "
+            f"(first: {library.problems[0].where}: {library.problems[0].message}); "
+            "those cells count as missing; run 'selector audit' for the list")
+
+
 def find_part(query: str, library: Library) -> Match:
     """Match ``query`` to the library (see :func:`selector.matching.match_part`)."""
     return match_part(query, library.table["part"], library_packages(library.table),

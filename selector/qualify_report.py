@@ -35,6 +35,8 @@ def check_cells(row) -> list[str]:
         available = "" if _missing(row.available) else f"{row.available:g}"
     else:
         required, available = _value(row.required, row.unit), _value(row.available, row.unit)
+    if row.status == UNKNOWN:
+        available = "?"  # computed from a missing figure: not a value to read
     margin = format_margin(row.sense, row.unit, row.status, row.margin)
     if row.status == FAIL and margin.startswith("✗ "):
         margin = margin[2:]

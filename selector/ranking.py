@@ -12,7 +12,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from .checks import FAIL, NA, PASS, RATIO_SENSES, UNKNOWN, CheckResult, run_checks
+from .checks import (FAIL, NA, PASS, RATIO_SENSES, STATUS_CODES, UNKNOWN, CheckResult,
+                     run_checks)
 from .library import Library
 from .requirements import Requirements
 
@@ -81,11 +82,13 @@ def evaluate(req: Requirements, library: Library) -> Evaluation:
     checks = run_checks(req, library)
     size = len(library)
     names = list(checks)
-    status = np.stack([checks[n].status for n in names], axis=1) if names else np.empty((size, 0))
-    failed_mask = status == FAIL
-    unknown_mask = status == UNKNOWN
+    codes = {n: _codes_of(checks[n]) for n in names}  # int8 per part: fast to combine
+    code = (np.stack([codes[n] for n in names], axis=1) if names
+            else np.empty((size, 0), dtype=np.int8))
+    failed_mask = code == _FAIL_CODE
+    unknown_mask = code == _UNKNOWN_CODE
     ratio_names = [n for n in names if checks[n].sense in RATIO_SENSES]
-    margins = np.stack([np.where(checks[n].status == PASS, checks[n].margin, np.inf)
+    margins = np.stack([np.where(codes[n] == _PASS_CODE, checks[n].margin, np.inf)
                         for n in ratio_names], axis=1)
     score = margins.min(axis=1)
     binding_index = margins.argmin(axis=1)
@@ -109,6 +112,17 @@ def evaluate(req: Requirements, library: Library) -> Evaluation:
     return Evaluation(req, library, checks, parts)
 
 
+_PASS_CODE, _FAIL_CODE, _UNKNOWN_CODE = (STATUS_CODES.index(s) for s in (PASS, FAIL, UNKNOWN))
+
+
+def _codes_of(result: CheckResult) -> np.ndarray:
+    """The int8 status codes of a check (computed from ``status`` if it has none)."""
+    if result.code is not None:
+        return result.code
+    status = result.status
+    return np.select([status == s for s in STATUS_CODES[:3]], [0, 1, 2], 3).astype(np.int8)
+
+
 def _bits(mask: np.ndarray) -> np.ndarray:
     """Pack a (parts × checks) boolean mask into one integer per part."""
     weights = np.left_shift(np.int64(1), np.arange(mask.shape[1], dtype=np.int64))
@@ -118,26 +132,35 @@ def _bits(mask: np.ndarray) -> np.ndarray:
 def rank(evaluation: Evaluation) -> Shortlist:
     """Order the qualifying parts and collect the near misses."""
     parts = evaluation.parts.assign(position=np.arange(len(evaluation.parts)))
-    good = parts[parts["verdict"] == "qualifies"]
-    good = good.assign(
-        _cost=good["unit_cost"].fillna(np.inf), _iq=good["iq"].fillna(np.inf),
-    ).sort_values(["score", "_cost", "_iq", "part"], ascending=[False, True, True, True],
-                  kind="mergesort")
-    qualifying = good.drop(columns=["_cost", "_iq"]).reset_index(drop=True)
+    verdict = parts["verdict"].to_numpy(dtype=object)  # compared as numpy, once each
+    qualifies, rejected = verdict == "qualifies", verdict == "rejected"
+    good = parts[qualifies]
+    # score high first, then lower cost, lower iq (missing last), then part key; a
+    # stable numpy lexsort (last key first) instead of a pandas multi-column sort
+    order = np.lexsort((_text_rank(good["part"]), good["iq"].fillna(np.inf).to_numpy(),
+                        good["unit_cost"].fillna(np.inf).to_numpy(),
+                        -good["score"].to_numpy()))
+    qualifying = good.iloc[order].reset_index(drop=True)
     qualifying.insert(0, "rank", np.arange(1, len(qualifying) + 1))
 
-    near = parts[(parts["verdict"] == "rejected") & (parts["n_failed"] <= NEAR_MISS_MAX_FAILED)
-                 & (parts["n_unknown"] == 0)]
+    near = parts[rejected & (parts["n_failed"] <= NEAR_MISS_MAX_FAILED).to_numpy()
+                 & (parts["n_unknown"] == 0).to_numpy()]
     shortfall = _shortfall(evaluation, near["position"].to_numpy())
-    near = near.assign(shortfall=shortfall).sort_values(
-        ["n_failed", "shortfall", "part"], ascending=[True, False, True], kind="mergesort")
+    near = near.assign(shortfall=shortfall)
+    near = near.iloc[np.lexsort((_text_rank(near["part"]), -shortfall,
+                                 near["n_failed"].to_numpy()))]
     counts = {
         "considered": int(len(parts)),
-        "qualifying": int((parts["verdict"] == "qualifies").sum()),
-        "unknown": int((parts["verdict"] == "unknown").sum()),
-        "rejected": int((parts["verdict"] == "rejected").sum()),
+        "qualifying": int(qualifies.sum()),
+        "unknown": int((verdict == "unknown").sum()),
+        "rejected": int(rejected.sum()),
     }
     return Shortlist(evaluation, qualifying, near.reset_index(drop=True), counts)
+
+
+def _text_rank(text: pd.Series) -> np.ndarray:
+    """Each text's position in sorted (code-point) order, equal texts equal."""
+    return np.unique(text.to_numpy(dtype=object), return_inverse=True)[1].ravel()
 
 
 def _shortfall(evaluation: Evaluation, positions: np.ndarray) -> np.ndarray:
@@ -145,7 +168,7 @@ def _shortfall(evaluation: Evaluation, positions: np.ndarray) -> np.ndarray:
     headroom failures count as 0), so larger is closer to qualifying."""
     worst = np.full(len(positions), np.inf)
     for result in evaluation.checks.values():
-        failed = result.status[positions] == FAIL
+        failed = _codes_of(result)[positions] == _FAIL_CODE
         if result.sense in RATIO_SENSES:
             value = result.margin[positions]
         else:

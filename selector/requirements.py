@@ -113,6 +113,13 @@ def derive(brief: Brief, network: tuple[float, float] | None = None,
     plan = _offset_plan(brief, gain, offset)
     summing = plan is not None and plan.kind == "summing"
     wanted_ng = plan.noise_gain if summing else gain
+    if summing and brief.rf is not None and brief.rg is not None:
+        made = 1 + brief.rf / brief.rg
+        if abs(made - wanted_ng) > GAIN_AGREEMENT * wanted_ng:
+            fail("network.rf", f"the offset needs a summing network whose Rf/Rg make a "
+                 f"noise gain of {wanted_ng:.5g} (G + c/Vr with Vr = {plan.reference:g} "
+                 f"V), but network.rf/network.rg make {made:.5g}")
+            raise InputError(problems)
     offset_network = None
     if (synthesise and network is None and brief.rf is None and brief.rg is None
             and gain is not None and topology != "follower" and abs(wanted_ng - 1) > 1e-12):

@@ -244,9 +244,8 @@ def plant_duplicates(key: np.ndarray, count: int, rng: np.random.Generator):
     candidates = np.where(kind == "swap", (head + "-" + swapped).to_numpy(dtype=object),
                           np.where(kind == "extra", (head + "-" + extra).to_numpy(dtype=object),
                                    new))
-    taken = set(_normal_key(key))
     normal = _normal_key(candidates)
-    clash = (np.array([k in taken for k in normal]) | pd.Series(normal).duplicated().to_numpy()
+    clash = (np.isin(normal, _normal_key(key)) | pd.Series(normal).duplicated().to_numpy()
              | (swapped == digits).to_numpy() & (kind == "swap"))
     candidates = np.where(clash, new, candidates)
     kind = np.where(clash, "suffix", kind)

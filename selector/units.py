@@ -79,9 +79,11 @@ class Unit:
     decibel: bool = False
 
     def to_si(self, number):
-        if self.decibel:
-            return 10.0 ** (np.asarray(number, dtype=float) / 20.0)
-        return np.asarray(number, dtype=float) * self.scale + self.offset
+        """SI value(s); a result beyond float range is inf (callers reject it)."""
+        with np.errstate(over="ignore"):
+            if self.decibel:
+                return 10.0 ** (np.asarray(number, dtype=float) / 20.0)
+            return np.asarray(number, dtype=float) * self.scale + self.offset
 
 
 def _normalise(unit: str) -> str:

@@ -239,6 +239,25 @@ def test_dominance_matches_a_pairwise_loop(demo):
     assert set(dominated(demo)["part"]) == brute_dominated(demo)
 
 
+def test_dominance_matches_a_pairwise_loop_on_a_random_library():
+    # invented figures on coarse grids, so ties, equal rows and gaps are common
+    rng = np.random.default_rng(11)
+    count = 80
+    table = pd.DataFrame({
+        "part": [f"ZQ-{1000 + i}" for i in range(count)],
+        "gbw": rng.choice([1e6, 2e6, 4e6], count), "slew": rng.choice([1e6, 2e6], count),
+        "supply_min": rng.choice([1.8, 2.7], count), "supply_max": 5.5,
+        "vos": rng.choice([1e-4, -2e-4, 5e-4, np.nan], count),
+        "iq": rng.choice([1e-4, 2e-4], count), "unit_cost": rng.choice([0.5, 1.0], count),
+        "package": rng.choice(["SOT23-5", "sot23-5", "MSOP-8"], count),
+        "channels": rng.choice([1.0, 2.0], count),
+        "status": rng.choice(["active", "active", "active", "nrnd"], count)})
+    library = Library("<random>", table, np.arange(2, count + 2))
+    found = dominated(library)
+    assert len(found) > 5  # the coarse grid makes dominance common
+    assert set(found["part"]) == brute_dominated(library)
+
+
 def test_dominance_includes_cost_and_every_checked_column():
     parameters = dominance_parameters()
     for column in ("unit_cost", "gbw", "slew", "vos", "pm", "iq", "temp_max"):

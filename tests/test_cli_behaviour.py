@@ -115,6 +115,31 @@ def test_sigint_exits_130_with_one_line(tmp_path):
     assert out == b""
 
 
+def test_sigint_while_loading_the_libraries_is_clean():
+    # Ctrl-C pressed right after starting, while pandas' compiled modules are still
+    # loading (seen in /proc/PID/maps, Linux), is also one line and status 130.
+    maps = Path("/proc/self/maps")
+    if not maps.exists():
+        pytest.skip("needs Linux /proc to see when pandas is loading")
+    process = subprocess.Popen(selector_cmd("shortlist", BRIEF), stdout=subprocess.PIPE,
+                               stderr=subprocess.PIPE, env=env())
+    deadline = time.monotonic() + 60
+    while True:
+        try:
+            loaded = "pandas/_libs" in Path(f"/proc/{process.pid}/maps").read_text()
+        except OSError:
+            loaded = False
+        if loaded or process.poll() is not None or time.monotonic() > deadline:
+            break
+        time.sleep(0.002)
+    process.send_signal(signal.SIGINT)
+    out, err = process.communicate(timeout=60)
+    if process.returncode == 0:
+        pytest.skip("the run finished before the signal arrived")
+    assert process.returncode == 130, err.decode()
+    assert err.decode().splitlines() == ["selector: interrupted"]
+
+
 # ------------------------------------------------------------------ colour
 def run_table(extra_env: dict, *flags) -> str:
     result = subprocess.run(selector_cmd("shortlist", BRIEF, *flags), capture_output=True,
@@ -240,3 +265,49 @@ def test_internal_errors_are_one_line(monkeypatch, capsys):
     monkeypatch.setenv("SELECTOR_DEBUG", "1")
     with pytest.raises(ZeroDivisionError):
         cli.main(["derive", str(BRIEF)])
+
+
+# ------------------------------------------------------------------ CSV exports
+def test_csv_export_neutralises_formulas_and_keeps_numbers(tmp_path, capsys):
+    # OWASP "CSV Injection": a cell starting with =, +, -, @, tab or CR can run as a
+    # formula in a spreadsheet; prefixing it with ' makes it text.  Hostile keys are
+    # invented test data.
+    import csv
+    import io
+    library = tmp_path / "hostile.csv"
+    library.write_text(
+        "part,gbw [MHz],slew [V/us],supply_min [V],supply_max [V],swing_low [V],"
+        "swing_high [V],cm_low [V],cm_high [V],vos [uV],vos_drift [uV/C],ib [pA],"
+        "aol [dB],pm [deg],en [nV/rtHz],in [fA/rtHz],en_corner [Hz],cin_cm [pF],"
+        "cin_diff [pF],ro [ohm],iout [mA],iq [uA],temp_min [C],temp_max [C],status\n"
+        + "".join(f"{key},10,10,2.7,36,0.05,0.05,-0.1,-0.1,50,0.5,10,120,70,10,10,10,"
+                  f"3,3,50,40,500,-40,125,active\n"
+                  for key in ('"=HYPERLINK(""x"")"', "+ZT-4410", "-ZT-4420", "@ZT-4430",
+                              "ZT-4440")))
+    assert cli.main(["shortlist", str(BRIEF), "--library", str(library),
+                     "--format", "csv"]) == 0
+    rows = list(csv.reader(io.StringIO(capsys.readouterr().out)))
+    header, body = rows[0], rows[1:]
+    parts = {row[header.index("part")] for row in body}
+    assert parts == {"'=HYPERLINK(\"x\")", "'+ZT-4410", "'-ZT-4420", "'@ZT-4430", "ZT-4440"}
+    for row in body:
+        assert float(row[header.index("score")]) >= 1  # numbers stay plain numbers
+        margin = row[header.index("slew_margin")]
+        assert margin == "" or float(margin) > 0
+        for cell in row:
+            assert not cell.startswith(("=", "+", "@", "\t", "\r")), cell
+            if cell.startswith("-"):  # only a plain negative number may start so
+                float(cell)
+
+
+def test_neutralise_cell_by_cell():
+    from selector.report import neutralise
+    assert neutralise("=1+2") == "'=1+2"
+    assert neutralise("-1 V to 1 V") == "'-1 V to 1 V"
+    assert neutralise("\tx") == "'\tx" and neutralise("\rx") == "'\rx"
+    assert neutralise("@SUM(A1)") == "'@SUM(A1)"
+    assert neutralise("-3.5e-6") == "-3.5e-6"  # text that is a plain number
+    assert neutralise("-inf") == "'-inf"  # not a number a spreadsheet reads
+    assert neutralise(-1.5) == -1.5 and neutralise(7) == 7
+    assert neutralise(float("nan")) == "" and neutralise(float("inf")) == ""
+    assert neutralise(None) == "" and neutralise(True) == "true"

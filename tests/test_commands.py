@@ -116,8 +116,8 @@ def test_ties_go_to_cost_then_iq(cli):
 
 
 def test_exit_1_when_nothing_qualifies(cli, write):
-    # an invented brief no part can meet: 10 MHz at 4 V peak needs 251 V/µs of slew,
-    # from a 1.8 V supply on which nothing in the library runs at that speed
+    # an invented brief no part can meet: gain 40, ±0.1 V at 10 MHz needs 2π·10 MHz·4 V
+    # = 251 V/µs and GBW ≥ 40·7.02·10 MHz = 2.8 GHz; the demo library tops out at 500 MHz
     text = BASIC_BRIEF.replace('frequency = "1 kHz"', 'frequency = "10 MHz"')
     code, data = cli.json("shortlist", write("hard.toml", text.replace(
         "gain = 10", "gain = 40").replace('rf = "9k"', 'rf = "39k"')))

@@ -106,3 +106,5 @@ def test_keys_equal_after_normalising_are_ambiguous():
     keys = pd.Series(["ZT-4410", "zt 4410"])
     with pytest.raises(InputError, match="same after normalising"):
         match_part("ZT4410", keys)
+    # spelled exactly as one of them: that one, without asking
+    assert match_part("zt 4410", keys).position == 1

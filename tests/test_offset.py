@@ -187,3 +187,15 @@ def test_resistor_values_of_every_solution_are_standard():
     assert solution.common_mode[0] == pytest.approx(solution.reference)
     assert 0 < solution.reference < 3.3
     assert math.isfinite(solution.input_impedance) and solution.input_impedance == solution.rg
+
+
+def test_brief_network_must_make_the_summing_noise_gain():
+    text = (DEMO_BRIEFS / "bridge_offset.toml").read_text()
+    # NG = G + c/Vr = 3.1 + 1.65/3.3 = 3.6: Rf/Rg = 2k6/1k fits, 3k/1k (NG 4) does not
+    good = text.replace('stray_capacitance = "2 pF"',
+                        'stray_capacitance = "2 pF"\nrf = "2k6"\nrg = "1k"')
+    req = derive(parse_brief(good, "good.toml"))
+    assert req.noise_gain == pytest.approx(3.6) and req.network_source == "brief"
+    assert req.input_common_mode == (pytest.approx(0.1 / 3.6), pytest.approx(3.2 / 3.6))
+    with pytest.raises(InputError, match="noise gain of 3.6"):
+        derive(parse_brief(good.replace('rf = "2k6"', 'rf = "3k"'), "bad.toml"))

@@ -118,8 +118,10 @@ def network_lines(result) -> list[str]:
              f"endpoints {s.endpoints[0]:.4g} V, {s.endpoints[1]:.4g} V, within "
              f"{_f(s.endpoint_error, 'V')} of the brief",
              f"noise gain {s.noise_gain:.4g}; the source sees "
-             f"{'a high-impedance input' if math.isinf(s.input_impedance) else _f(s.input_impedance, 'ohm')}"
-             f"; the op-amp input sits at {s.common_mode[0]:.4g} V to {s.common_mode[1]:.4g} V"]
+             + ("a high-impedance input" if math.isinf(s.input_impedance)
+                else _f(s.input_impedance, "ohm")) +
+             f"; the op-amp input sits at {s.common_mode[0]:.4g} V to "
+             f"{s.common_mode[1]:.4g} V"]
     if s.reference is not None:
         made = (f" made from {s.source_voltage:g} V" if s.source_voltage is not None
                 and s.source_voltage != s.reference else "")

@@ -15,6 +15,7 @@ import sys
 from ..brief import load_brief
 from ..cli import add_common, emit, library_path
 from ..library import load_library
+from ..qualify import library_warning
 from ..qualify import qualify
 from ..qualify_report import render_qualify
 
@@ -31,7 +32,10 @@ def add_arguments(parser) -> None:
 
 def run(args, console) -> int:
     brief = load_brief(args.brief)
-    library = load_library(library_path(args))
+    library = load_library(library_path(args), strict=False)
+    warning = library_warning(library)
+    if warning:
+        print(f"selector: warning: {warning}", file=sys.stderr)
     result = qualify(args.part, brief, library)
     note = result.match.note()
     if note:

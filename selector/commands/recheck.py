@@ -7,8 +7,11 @@ Folders are searched for *.toml files.  Exit status 0 when every design still
 qualifies, 1 when any does not (for a CI job on library changes), 2 on bad input."""
 from __future__ import annotations
 
+import sys
+
 from ..cli import add_common, emit, library_path
 from ..library import load_library
+from ..qualify import library_warning
 from ..qualify import recheck, recheck_exit_status
 from ..qualify_report import render_recheck
 
@@ -23,7 +26,10 @@ def add_arguments(parser) -> None:
 
 
 def run(args, console) -> int:
-    library = load_library(library_path(args))
+    library = load_library(library_path(args), strict=False)
+    warning = library_warning(library)
+    if warning:
+        print(f"selector: warning: {warning}", file=sys.stderr)
     frame = recheck(args.paths, library)
     emit(render_recheck(frame, args.format, console))
     return recheck_exit_status(frame)

@@ -350,6 +350,9 @@ def engine_qualifying(req: Requirements, library, names=CLOSED_FORM) -> np.ndarr
     parts = engine_checks.Parts(library)
     ok = np.ones(len(library), dtype=bool)
     for name in names:
-        status = engine_checks.REGISTRY[name].function(req, parts).status
-        ok &= (status == PASS) | (status == NA)
+        result = engine_checks.REGISTRY[name].function(req, parts)
+        if result.code is not None:  # int8: 0 pass, 3 n/a (selector.checks.STATUS_CODES)
+            ok &= (result.code == 0) | (result.code == 3)
+        else:
+            ok &= (result.status == PASS) | (result.status == NA)
     return ok

@@ -151,15 +151,17 @@ def loop_gain(frequency, gbw, aol, noise_gain, poles):
 def crossover_and_phase_margin(gbw, aol, noise_gain, poles, iterations=80):
     """Crossover frequency (Hz) where |L| = 1 and phase margin (degrees), vectorised.
 
-    |L| falls monotonically with frequency for this all-pole loop, so a bisection on
-    log-frequency, run on every part at once, finds the crossover.  Parts whose loop
-    gain never reaches 1 get NaN crossover and a phase margin of 180°.
+    |L| falls monotonically with frequency for this all-pole loop, and ln(1/|L|²) is
+    convex in log-frequency, so Newton's method on log-frequency (at most
+    ``iterations`` steps, run on every part at once) finds the crossover within
+    [1 µHz, 10 THz].  Parts whose loop gain never reaches 1 get NaN crossover and a
+    phase margin of 180°.
     """
     gbw = np.asarray(gbw, dtype=float)
     aol, noise_gain = np.broadcast_to(aol, gbw.shape), np.broadcast_to(noise_gain, gbw.shape)
     poles = [np.broadcast_to(np.asarray(p, dtype=float), gbw.shape) for p in poles]
-    low = np.full(gbw.shape, 1e-6)  # Hz; the bisection halves log-frequency, so the
-    high = np.full(gbw.shape, 1e13)  # midpoint is the geometric mean of the bounds
+    low = np.full(gbw.shape, 1e-6)  # Hz: the range searched for the crossover
+    high = np.full(gbw.shape, 1e13)
     # 1/|L|² in real arithmetic (no complex temporaries): |L| > 1 ⇔ this < 1
     inv_aol2 = np.where(np.isfinite(aol), 1 / aol, 0.0) ** 2
     inv_gbw, ng2 = 1 / gbw, np.asarray(noise_gain, dtype=float) ** 2
@@ -179,16 +181,28 @@ def crossover_and_phase_margin(gbw, aol, noise_gain, poles, iterations=80):
         return value
 
     never = inverse_magnitude2(low) > 1
-    middle = np.empty_like(low)
-    for step in range(iterations):
-        np.multiply(low, high, out=middle)
-        np.sqrt(middle, out=middle)
-        above = inverse_magnitude2(middle) < 1
-        if step % 8 == 7 and not np.where(above, middle != low, middle != high).any():
-            break  # a fixed point: this and every later step would change nothing
-        np.copyto(low, middle, where=above)
-        np.copyto(high, middle, where=~above)
-    crossover = np.sqrt(low * high)
+    # Newton's method on u = ln f for g(u) = ln(1/|L|²), which is increasing and convex
+    # in u (a sum of log-sum-exp terms), started at the single-pole crossover: an upper
+    # bound, since the extra poles only lower |L|.  From the right of the root of a
+    # convex increasing function Newton's steps fall monotonically onto it (quadratic
+    # convergence), so a handful of whole-array steps replaces the ~60 of a bisection.
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        start = np.sqrt(np.maximum(1 / ng2 - inv_aol2, 0.0)) / inv_gbw
+        u = np.log(np.clip(np.where(never, 1.0, start), low, high))
+        for _ in range(iterations):
+            f = np.exp(u)
+            x = f * inv_gbw
+            x *= x
+            slope = 2 * x / (inv_aol2 + x)
+            for inv_pole in inv_poles:
+                y = f * inv_pole
+                y *= y
+                slope += 2 * y / (1 + y)
+            step = np.where(never, 0.0, np.log(inverse_magnitude2(f)) / slope)
+            u = u - step
+            if not np.nanmax(np.abs(step), initial=0.0) > 1e-9:
+                break  # quadratic convergence: the step just taken was the last needed
+        crossover = np.exp(np.clip(u, np.log(low), np.log(high)))
     phase = -np.degrees(np.arctan(crossover * np.where(np.isfinite(aol), aol, np.inf) / gbw))
     phase = np.where(np.isfinite(aol), phase, -90.0)
     for pole in poles:

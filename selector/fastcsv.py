@@ -23,8 +23,10 @@ def read_plain(text: str) -> tuple[list[str], pd.DataFrame] | None:
     """Header cells and body (text columns ``0..width-1``, ``""`` for empty) of a
     quote-free CSV whose first line is the header, or ``None`` to use the exact path.
     """
-    if '"' in text or "\r" in text.replace("\r\n", "\n") or "\x00" in text:
+    if '"' in text or "\x00" in text:
         return None
+    if "\r" in text and "\r" in text.replace("\r\n", "\n"):
+        return None  # a lone carriage return ends a record for the csv module only
     first = text.split("\n", 1)[0]
     if not first.strip(" \t,\r"):
         return None  # blank rows before the header: the exact path counts them

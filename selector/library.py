@@ -122,7 +122,13 @@ class Library:
 
 def normalise_key(keys: pd.Series) -> pd.Series:
     """Part keys compared without case, spaces, dashes, dots or underscores."""
-    return keys.astype(str).str.lower().str.replace(r"[\s\-_./]+", "", regex=True)
+    return keys.astype(str).str.lower().str.translate(_KEY_IGNORED)
+
+
+# what normalise_key drops: Unicode whitespace (as the regex class \s; none lies above
+# U+3000) and - _ . / ; str.translate is faster than a regex over 10⁵ keys
+_KEY_IGNORED = dict.fromkeys([c for c in range(0x3001) if chr(c).isspace()]
+                             + [ord(c) for c in "-_./"])
 
 
 def read_text(path: str | Path) -> str:
@@ -231,6 +237,9 @@ def shown(text: str, limit: int = 40) -> str:
     return text if len(text) <= limit else text[:limit - 3] + "..."
 
 
+_FIRST_LINE_RE = re.compile("[^\n\r\x0b\x0c\x1c\x1d\x1e\x85\u2028\u2029]*")
+
+
 def _read_csv(text: str, source: str) -> tuple[list[str], pd.DataFrame, int]:
     """Split CSV text into header and body; returns them and the row number of the
     header (1 unless blank rows come first).  Rows are counted as records, as a
@@ -238,7 +247,7 @@ def _read_csv(text: str, source: str) -> tuple[list[str], pd.DataFrame, int]:
     if not text.strip():
         raise InputError(f"{source}: file is empty")
     stripped = text.lstrip("\r\n")
-    first_line = stripped.splitlines()[0]
+    first_line = _FIRST_LINE_RE.match(stripped).group()  # = splitlines()[0], no full split
     first_row = text[:len(text) - len(stripped)].count("\n") + 1
     if first_line.count(";") > first_line.count(",") and first_line.count(";") >= 2:
         raise InputError(

@@ -59,6 +59,22 @@ class Requirements:
         return self.brief.frequency
 
     @property
+    def plus_input_resistance(self) -> float:
+        """Resistance (Ω) the + input sees, for bias-current error and noise: the
+        source for a follower or non-inverting stage, (R1 + Rs) ∥ R2 through a
+        summing network, the reference divider Ra ∥ Rb of an inverting stage (0 when
+        the + input is tied straight to ground or a stiff reference)."""
+        net, rs = self.offset_network, self.brief.source_resistance
+        kind = getattr(net, "kind", None)
+        if kind == "summing" and net.r1 and net.r2:
+            return (net.r1 + rs) * net.r2 / (net.r1 + rs + net.r2)
+        if self.topology == "inverting":
+            if kind == "reference-at-plus" and net.ra:
+                return net.ra if net.rb is None else net.ra * net.rb / (net.ra + net.rb)
+            return 0.0
+        return rs
+
+    @property
     def feedback_load(self) -> float:
         """Resistance (Ω) the feedback network puts on the output (to the reference)."""
         if self.topology == "follower" or self.rf == 0:

@@ -161,8 +161,10 @@ def test_noise(bench):
     assert status == [PASS, PASS, UNKNOWN]        # ZT-1003: no 1/f corner
 
 
-def _control_margin(gbw, aol, ng, poles):
-    loop = control.tf([aol / ng], [aol / (TWO_PI * gbw), 1.0])
+def _control_margin(gbw, aol, ng, poles, load_factor=1.0):
+    # L(s) = load_factor·(A_OL/NG)/(1 + s·A_OL/(2π·GBW))·Π 1/(1 + s/(2π·p)), built in
+    # python-control; load_factor = R'/(R' + Ro) is the output resistance's divider
+    loop = control.tf([load_factor * aol / ng], [aol / (TWO_PI * gbw), 1.0])
     for p in poles:
         loop = loop * control.tf([1.0], [1 / (TWO_PI * p), 1.0])
     return control.stability_margins(loop)[1]
@@ -170,24 +172,42 @@ def _control_margin(gbw, aol, ng, poles):
 
 def test_phase_margin_against_python_control(bench):
     # §6 for ZT-1001: second pole 10 MHz·tan 60° = 17.32 MHz; feedback pole
-    # 1/(2π·900 Ω·(5 + 3 + 2) pF) = 17.68 MHz; load pole 1/(2π·50 Ω·1 nF) = 3.183 MHz
+    # 1/(2π·900 Ω·(5 + 3 + 2) pF) = 17.68 MHz.  The output resistance Ro = 50 Ω drives
+    # R' = R_L ∥ (Rf + Rg) = 1 kΩ ∥ 10 kΩ = 909.09 Ω: the loop gain is scaled by
+    # R'/(R' + Ro) = 909.09/959.09 = 0.94787, and the load pole is
+    # 1/(2π·(Ro ∥ R')·C_L) = 1/(2π·47.393 Ω·1 nF) = 3.3582 MHz (not 1/(2π·50 Ω·1 nF)
+    # = 3.1831 MHz: the resistive load lowers the resistance C_L sees)
     req, library, results = bench
     f2 = 10e6 * math.tan(math.radians(60))
     f_fb = 1 / (TWO_PI * 900 * 10e-12)
-    f_load = 1 / (TWO_PI * 50 * 1e-9)
-    assert (f_fb, f_load) == pytest.approx((17.684e6, 3.1831e6), rel=1e-4)
-    expected = _control_margin(10e6, 1e5, 10.0, [f2, f_fb, f_load])
+    r_load = 1 / (1 / 1e3 + 1 / 10e3)
+    factor = r_load / (r_load + 50)
+    f_load = 1 / (TWO_PI * (50 * r_load / (50 + r_load)) * 1e-9)
+    assert (f_fb, r_load, factor, f_load) == pytest.approx(
+        (17.684e6, 909.09, 0.94787, 3.3582e6), rel=1e-4)
+    expected = _control_margin(10e6, 1e5, 10.0, [f2, f_fb, f_load], factor)
     crossover, margin, pole, _ = loop_of(req, Parts(library))
     assert pole[0] == pytest.approx(f_fb, rel=1e-9)
     assert margin[0] == pytest.approx(expected, abs=1e-3)
-    status, required, available, ratio = figures(results, "phase_margin")
+    # the crossover is where python-control's loop has |L| = 1
+    loop = control.tf([factor * 1e5 / 10.0], [1e5 / (TWO_PI * 10e6), 1.0])
+    for p in (f2, f_fb, f_load):
+        loop = loop * control.tf([1.0], [1 / (TWO_PI * p), 1.0])
+    gain_there = abs(complex(loop(1j * TWO_PI * crossover[0])))
+    assert gain_there == pytest.approx(1.0, rel=1e-6)
+    # a headroom in degrees above the brief's 45°, not a ratio
+    status, required, available, headroom = figures(results, "phase_margin")
+    assert results["phase_margin"].sense == "headroom"
+    assert results["phase_margin"].unit == "deg"
+    assert required[0] == 45.0
     assert available[0] == pytest.approx(expected, abs=1e-3)
-    assert ratio[0] == pytest.approx(expected / 45.0, abs=1e-4)
+    assert headroom[0] == pytest.approx(expected - 45.0, abs=1e-3)
     assert status[0] == PASS
-    # ZT-1002 (50 kHz, 80 dB, PM1 50°) from python-control as well
+    # ZT-1002 (50 kHz, 80 dB, PM1 50°, the same Ro = 50 Ω) from python-control as well
     expected_2 = _control_margin(50e3, 1e4, 10.0, [50e3 * math.tan(math.radians(50)),
-                                                    f_fb, f_load])
+                                                    f_fb, f_load], factor)
     assert available[1] == pytest.approx(expected_2, abs=1e-3)
+    assert headroom[1] == pytest.approx(expected_2 - 45.0, abs=1e-3)
     assert status[2] == UNKNOWN                   # ZT-1003: cin_diff missing
 
 

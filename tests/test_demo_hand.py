@@ -4,11 +4,14 @@ Each part's row is read from the (invented) demo library with the csv module and
 the brief with tomllib, both converted by the small unit table below, not by the
 project's parsers.  Every ratio margin that applies (METHOD.md §2–§6, §8) is then
 recomputed by hand formula and compared with the tool's JSON; the tool's score must
-be the smallest of them and its binding check the one that gives it.
+be the smallest of them and its binding check the one that gives it.  The phase
+margin is recomputed too (brentq on the loop gain) and compared as what the tool
+reports it as: a headroom in degrees above the brief's minimum, outside the score.
 
-The gain network (rf, rg and the reference) is the tool's design choice and is
-taken from its output; it is checked here against the brief's gain (§1: within
-0.5 %) and everything downstream is recomputed from it.
+The gain network (rf, rg and the reference, and for a synthesised offset network the
+divider Ra, Rb or the summing R1, R2 from ``selector network``) is the tool's design
+choice and is taken from its output; it is checked here against the brief's gain
+(§1: within 0.5 %) and everything downstream is recomputed from it.
 """
 from __future__ import annotations
 
@@ -62,11 +65,12 @@ def library_rows():
         return rows
 
 
-def phase_margin(gbw, aol, ng, poles):
-    """Crossover of L(jf) = (A_OL/NG)/(1 + j·f·A_OL/GBW)·Π 1/(1 + j·f/p) by brentq,
-    then PM = 180° + arg L(j·f_x) (§6)."""
+def phase_margin(gbw, aol, ng, poles, load_factor=1.0):
+    """Crossover of L(jf) = k·(A_OL/NG)/(1 + j·f·A_OL/GBW)·Π 1/(1 + j·f/p) by brentq,
+    then PM = 180° + arg L(j·f_x) (§6); k = R'/(R' + Ro) is the divider the output
+    resistance makes with the resistive load R' (a positive real: no phase)."""
     def loop(f):
-        value = (aol / ng) / (1 + 1j * f * aol / gbw)
+        value = load_factor * (aol / ng) / (1 + 1j * f * aol / gbw)
         for p in poles:
             value /= (1 + 1j * f / p)
         return value
@@ -77,8 +81,31 @@ def phase_margin(gbw, aol, ng, poles):
     return 180 + phase
 
 
-def hand_margins(brief, part, derived):
-    """Every ratio margin of ``part`` (a dict of SI floats) for ``brief`` (TOML dict)."""
+def plus_resistance(brief, derived, network):
+    """Resistance (Ω) the + input sees (§4, §5).  With the brief's own Rf, Rg there is
+    no offset network: Rs for a non-inverting stage or a follower, 0 for an inverting
+    one (+ grounded or at a stiff reference).  A synthesised network (``network``, the
+    JSON of ``selector network``; its Rf, Rg must be the shortlist's) gives
+    (R1 + Rs) ∥ R2 for a summing network, Ra ∥ Rb for a divider at an inverting + input."""
+    rs = si(brief["signal"].get("source_resistance", "0 ohm"))
+    inverting = brief["topology"] == "inverting"
+    if "rf" in brief.get("network", {}):
+        return 0.0 if inverting else rs
+    assert (network["rf"], network["rg"]) == (derived["rf"], derived["rg"])
+    if network["kind"] == "summing":
+        a, b = network["r1"] + rs, network["r2"]
+        return a * b / (a + b)
+    if inverting:
+        if network["kind"] == "reference-at-plus" and network["ra"]:
+            ra, rb = network["ra"], network["rb"]
+            return ra if rb is None else ra * rb / (ra + rb)
+        return 0.0
+    return rs
+
+
+def hand_margins(brief, part, derived, network):
+    """Every ratio margin of ``part`` (a dict of SI floats) for ``brief`` (TOML dict),
+    and its phase margin (PM, PM − PM_min) in degrees."""
     s, o, n, lim = brief["signal"], brief.get("output", {}), brief.get("network", {}), \
         brief.get("limits", {})
     topology = brief["topology"]
@@ -104,6 +131,7 @@ def hand_margins(brief, part, derived):
         feedback_load = rf + rg
     assert abs(made - gain) <= 0.005 * abs(gain)                 # §1, 0.5 % agreement
     assert derived["noise_gain"] == pytest.approx(ng, rel=1e-9)
+    r_plus = plus_resistance(brief, derived, network)
     eps = si(lim.get("gain_error", "1 %"))
     sine = f > 0
     peak = abs(gain) * (x_hi - x_lo) / 2                         # §2
@@ -119,15 +147,14 @@ def hand_margins(brief, part, derived):
     else:
         margins["gain_accuracy"] = part["aol"] / (ng / (1 / (1 - eps) - 1))
     if "dc_error" in lim:                                        # §4
-        input_terms = part["vos"] + part["vos_drift"] * delta_t
-        if topology != "inverting":
-            input_terms += part["ib"] * rs
+        # NG·(|Vos| + |drift|·ΔT + |Ib|·R+) + |Ib|·Rf, R+ the + input's resistance
+        input_terms = part["vos"] + part["vos_drift"] * delta_t + part["ib"] * r_plus
         margins["dc_error"] = si(lim["dc_error"]) / (ng * input_terms + part["ib"] * rf)
     if "noise" in lim:                                           # §5
         f_lo, f_hi = (si(v) for v in lim["noise_bandwidth"])
         f_hi = min(f_hi, math.pi / 2 * part["gbw"] / ng)
         band = f_hi - f_lo
-        src = 0.0 if topology == "inverting" else rs
+        src = r_plus                                             # at the + input
         power = (part["en"] ** 2 * (band + part["en_corner"] * math.log(f_hi / f_lo))
                  + (4 * K_BOLTZMANN * T_ROOM * (src + req)
                     + part["in"] ** 2 * (src ** 2 + req ** 2)) * band)
@@ -135,20 +162,25 @@ def hand_margins(brief, part, derived):
     c_in = part["cin_cm"] + part["cin_diff"] + si(n.get("stray_capacitance", "0 pF"))
     poles = [part["gbw"] * math.tan(math.radians(part["pm"])),  # §6
              1 / (2 * math.pi * req * c_in)]
+    # Ro into R' = R_L ∥ (Rf for inverting, Rf + Rg otherwise): loop gain × R'/(R' + Ro)
+    # and the load pole 1/(2π·(Ro ∥ R')·C_L)
+    r_load = si(o["load_resistance"]) if "load_resistance" in o else math.inf
+    r_dash = 1 / (1 / r_load + 1 / feedback_load)
+    ro = part["ro"]
+    load_factor = r_dash / (r_dash + ro) if isinstance(ro, float) else 1.0
     c_load = si(o.get("load_capacitance", "0 pF"))
     if c_load:
-        poles.append(1 / (2 * math.pi * part["ro"] * c_load))
-    margins["phase_margin"] = phase_margin(part["gbw"], part["aol"], ng, poles) / si(
-        lim.get("phase_margin", "45 deg"))
+        poles.append(1 / (2 * math.pi * (ro * r_dash / (ro + r_dash)) * c_load))
+    pm = phase_margin(part["gbw"], part["aol"], ng, poles, load_factor)
+    phase = (pm, pm - si(lim.get("phase_margin", "45 deg")))
     if "quiescent_current" in lim:                               # §3
         margins["quiescent_current"] = si(lim["quiescent_current"]) / (
             part["iq"] * float(brief.get("channels", 1)))
-    r_load = si(o["load_resistance"]) if "load_resistance" in o else math.inf
     current = max(abs(y) / r_load + abs(y - vref) / feedback_load for y in (y_lo, y_hi))
     if sine:
         current += 2 * math.pi * f * peak * c_load
     margins["output_drive"] = part["iout"] / current             # §3
-    return margins
+    return margins, phase
 
 
 BRIEFS = ["vibration.toml", "thermocouple.toml", "hydrophone.toml"]
@@ -160,23 +192,31 @@ def test_top_three_by_hand(cli, name):
         brief = tomllib.load(handle)
     code, data = cli.json("shortlist", DEMO_BRIEFS / name, "--top", "3")
     assert code == 0
+    code, designed = cli.json("network", DEMO_BRIEFS / name)
+    assert code == 0
     assert 3 <= data["counts"]["qualifying"] < data["counts"]["considered"]
     rows = library_rows()
     for entry in data["shortlist"]:
         part = rows[entry["part"]]
-        hand = hand_margins(brief, part, data["derived"])
+        hand, (pm, headroom) = hand_margins(brief, part, data["derived"],
+                                            designed["network"])
         for check, margin in hand.items():
             assert entry["checks"][check]["status"] == "pass", (entry["part"], check)
             assert entry["checks"][check]["margin"] == pytest.approx(margin, rel=1e-6), \
                 (entry["part"], check)
-        binding = min(hand, key=hand.get)
+        phase = entry["checks"]["phase_margin"]                  # §6, a headroom
+        assert (phase["status"], phase["unit"]) == ("pass", "deg"), entry["part"]
+        assert phase["available"] == pytest.approx(pm, abs=1e-6), entry["part"]
+        assert phase["margin"] == pytest.approx(headroom, abs=1e-6), entry["part"]
+        binding = min(hand, key=hand.get)                        # ratio margins only
         assert entry["binding"] == binding
         assert entry["score"] == pytest.approx(hand[binding], rel=1e-6)
         # no other ratio check applies beyond those recomputed here
         others = {c for c, v in entry["checks"].items()
                   if v["status"] == "pass" and v["unit"] != "" and c not in hand
                   and c not in ("supply", "output_swing", "input_common_mode",
-                                "temperature", "status", "package", "cost")}
+                                "phase_margin", "temperature", "status", "package",
+                                "cost")}
         assert others == set()
 
 

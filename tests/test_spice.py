@@ -166,7 +166,9 @@ def test_part_with_enough_slew_passes_cleanly():
 
 def test_phase_margin_from_the_simulated_loop_gain():
     # gain 2 with 10k/10k, C_in = 10 pF: feedback pole 1/(2π·5k·10p) = 3.2 MHz near the
-    # 5 MHz crossover; 200 pF load through 50 Ω adds a pole at 16 MHz (METHOD.md §6)
+    # 5 MHz crossover; 200 pF load through Ro ∥ R' = 50 Ω ∥ (10k ∥ 20k) = 49.6 Ω adds a
+    # pole at 16.0 MHz, and Ro into R' scales the loop gain by 0.993 (METHOD.md §6 and
+    # the R' refinement in selector.checks.loop_of)
     b = brief(rf="10k", rg="10k", extra={"output": {"load_resistance": "10k",
                                                     "load_capacitance": "200 pF"},
                                          "limits": {"phase_margin": "45 deg"}})

@@ -7,7 +7,14 @@ finds).  It implements the relations of METHOD.md §2–§8 as the engine's chec
 so the benchmark can require the identical qualifying set and order, and it takes
 every derived figure (gain, noise gain, rf, network parallel resistance, reference,
 ranges, budgets) from the engine's own ``Requirements`` so that only the evaluation
-over the parts is compared.
+over the parts is compared.  Two figures of the loop and the bias-current paths are
+worked out here from the resistor values instead: the resistance the + input sees
+(Rs; (R1 + Rs) ∥ R2 through a summing network; Ra ∥ Rb of an inverting stage's
+reference divider, else 0) and the resistive load R' = R_L ∥ (feedback network) the
+output resistance drives.
+
+The phase margin is a headroom in degrees (PM − PM_min, passes at ≥ 0) and does not
+enter the score; the score is the weakest margin of the ratio checks.
 
 Not a test module (pytest does not collect this folder); tests/test_bench_equivalence.py
 imports it.
@@ -26,9 +33,11 @@ from selector.requirements import Requirements
 PASS, FAIL, UNKNOWN, NA = "pass", "fail", "unknown", "n/a"
 NAN, INF = math.nan, math.inf
 
-RATIO_CHECKS = ("slew", "gain_accuracy", "dc_error", "noise", "phase_margin",
+RATIO_CHECKS = ("slew", "gain_accuracy", "dc_error", "noise",
                 "quiescent_current", "output_drive", "settling")
-HEADROOM_CHECKS = ("supply", "output_swing", "input_common_mode", "temperature")
+# phase margin is a headroom in degrees (PM − PM_min): bounded, so kept out of the score
+HEADROOM_CHECKS = ("supply", "output_swing", "input_common_mode", "phase_margin",
+                   "temperature")
 FILTERS = ("status", "package", "cost")
 IMPLEMENTED = set(RATIO_CHECKS + HEADROOM_CHECKS + FILTERS)
 CLOSED_FORM = tuple(n for n in RATIO_CHECKS + HEADROOM_CHECKS + FILTERS
@@ -98,6 +107,38 @@ def _headroom(low_left, low_need, high_left, high_need, missing=False):
 
 def _nan_to_zero(x: float) -> float:
     return 0.0 if _isnan(x) else x
+
+
+def plus_resistance(req: Requirements) -> float:
+    """Resistance (Ω) the + input sees, from the resistor values: the source Rs for a
+    follower or non-inverting stage; (R1 + Rs) ∥ R2 when a summing network brings
+    the signal through R1 and the reference through R2; for an inverting stage the
+    Thevenin resistance Ra ∥ Rb of a reference divider at +, Ra alone when Rb is
+    absent, and 0 when + goes straight to ground or to a stiff reference."""
+    rs = req.brief.source_resistance
+    net = req.offset_network
+    kind = None if net is None else net.kind
+    if kind == "summing" and net.r1 and net.r2:
+        a, b = net.r1 + rs, net.r2
+        return a * b / (a + b)
+    if req.topology == "inverting":
+        if kind == "reference-at-plus" and net.ra:
+            return net.ra if net.rb is None else net.ra * net.rb / (net.ra + net.rb)
+        return 0.0
+    return rs
+
+
+def resistive_load(req: Requirements) -> float:
+    """R' (Ω) the output drives: R_L ∥ the feedback network (Rf for an inverting
+    stage, whose other end is a virtual ground; Rf + Rg for a non-inverting one;
+    none for a follower).  inf when neither is there."""
+    if req.topology == "follower" or req.rf == 0:
+        network = INF
+    else:
+        network = req.rf if req.topology == "inverting" else req.rf + req.rg
+    conductance = sum(1 / r for r in (req.brief.load_resistance, network)
+                      if math.isfinite(r))
+    return INF if conductance == 0 else 1 / conductance
 
 
 # ------------------------------------------------------------------ loop gain
@@ -211,17 +252,18 @@ def _dc_error(req, p):
     budget = req.dc_error_budget
     if budget is None:
         return (NA, NAN)
-    rs = req.brief.source_resistance
+    r_plus = plus_resistance(req)  # the bias current of + flows through it
     needs_drift = req.delta_t > 0
-    needs_ib = req.rf > 0 or (rs > 0 and req.topology != "inverting")
+    needs_ib = req.rf > 0 or r_plus > 0
     vos, drift, ib = p["vos"], p["vos_drift"], p["ib"]
     missing = (_isnan(vos) or (needs_drift and _isnan(drift))
                or (needs_ib and _isnan(ib)))
     drift = drift if needs_drift else _nan_to_zero(drift)
     ib = ib if needs_ib else _nan_to_zero(ib)
     vos, drift, ib = abs(vos), abs(drift), abs(ib)
-    source_term = 0.0 if req.topology == "inverting" else ib * rs
-    error = req.noise_gain * (vos + drift * req.delta_t + source_term) + ib * req.rf
+    # every topology: NG·(|Vos| + |drift|·ΔT + |Ib|·R+) + |Ib|·Rf (R+ = 0 for an
+    # inverting stage whose + input is grounded)
+    error = req.noise_gain * (vos + drift * req.delta_t + ib * r_plus) + ib * req.rf
     return _budget(budget, error, missing)
 
 
@@ -241,9 +283,8 @@ def _noise(req, p):
     budget = req.noise_budget
     if budget is None:
         return (NA, NAN)
-    rs = req.brief.source_resistance
     req_r = req.feedback_parallel
-    source = 0.0 if req.topology == "inverting" else rs
+    source = plus_resistance(req)  # the + input's resistance: its noise and in·R+
     resistive = source > 0 or req_r > 0
     f_low, f_high = noise_band_of(req, p["gbw"])
     en, in_, corner = p["en"], p["in"], p["en_corner"]
@@ -260,7 +301,8 @@ def _noise(req, p):
 
 
 def _phase_margin(req, p):
-    """METHOD §6: phase margin of the loop against the brief's minimum."""
+    """METHOD §6: phase margin of the loop against the brief's minimum, as a
+    headroom in degrees (PM − PM_min)."""
     brief = req.brief
     gbw, pm, aol = p["gbw"], p["pm"], p["aol"]
     missing = _isnan(gbw) or _isnan(pm)
@@ -276,15 +318,23 @@ def _phase_margin(req, p):
         missing = missing or _isnan(c_in)
         denominator = 2 * math.pi * req.feedback_parallel * c_in
         poles.append(INF if denominator == 0 else 1 / denominator)
+    # the output resistance into R' = R_L ∥ network: the loop gain is scaled by
+    # R'/(R' + Ro) (as a larger noise gain NG·(R' + Ro)/R') and C_L sees Ro ∥ R'
+    ro, load = p["ro"], resistive_load(req)
+    noise_gain = req.noise_gain
+    if not _isnan(ro) and math.isfinite(load):
+        noise_gain = noise_gain * (load + ro) / load
     if brief.load_capacitance > 0:
-        missing = missing or _isnan(p["ro"])
-        denominator = 2 * math.pi * p["ro"] * brief.load_capacitance
+        missing = missing or _isnan(ro)
+        driving = ro if not math.isfinite(load) else ro * load / (ro + load)
+        denominator = 2 * math.pi * driving * brief.load_capacitance
         poles.append(INF if denominator == 0 else 1 / denominator)
     if missing:
         return (UNKNOWN, NAN)
     poles = [INF if _isnan(x) else x for x in poles]
-    margin = phase_margin_of(gbw, INF if _isnan(aol) else aol, req.noise_gain, poles)
-    return _ratio(margin, brief.phase_margin, missing)
+    margin = phase_margin_of(gbw, INF if _isnan(aol) else aol, noise_gain, poles)
+    slack = margin - brief.phase_margin  # degrees above the brief's minimum
+    return _status(_isnan(slack), slack >= 0), slack
 
 
 def _settling(req, p):

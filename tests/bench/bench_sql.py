@@ -1,8 +1,10 @@
 """The benchmark's SQL versions: the closed-form checks as one query.
 
 The query is built from the engine's own ``Requirements`` (every derived figure is a
-constant in the query) and runs over the parsed parts table (SI floats, NULL where a
-figure is missing) in in-memory ``sqlite3`` or in DuckDB.  NULL propagation gives
+constant in the query; the resistance the + input sees is worked out from the
+network's resistor values by ``bench_reference.plus_resistance``) and runs over the
+parsed parts table (SI floats, NULL where a figure is missing) in in-memory
+``sqlite3`` or in DuckDB.  NULL propagation gives
 the engine's rule for free: a comparison with a missing figure is not true, so a part
 with an "unknown" check never qualifies.
 
@@ -20,6 +22,7 @@ import sqlite3
 import numpy as np
 import pandas as pd
 
+from bench_reference import plus_resistance
 from selector import checks as engine_checks
 from selector.relations import BOLTZMANN, DEFAULT_NOISE_LOW_HZ, ROOM_KELVIN
 
@@ -126,12 +129,12 @@ def _band_source(req, table: str) -> str:
 
 def _dc_error(req) -> str:
     """METHOD §4, with the engine's rule for which figures are needed."""
-    rs = req.brief.source_resistance
+    r_plus = plus_resistance(req)  # Rs, (R1 + Rs) ∥ R2, or an inverting stage's Ra ∥ Rb
     needs_drift = req.delta_t > 0
-    needs_ib = req.rf > 0 or (rs > 0 and req.topology != "inverting")
+    needs_ib = req.rf > 0 or r_plus > 0
     drift = "abs(vos_drift)" if needs_drift else "abs(coalesce(vos_drift, 0.0))"
     ib = "abs(ib)" if needs_ib else "abs(coalesce(ib, 0.0))"
-    source_term = "0.0" if req.topology == "inverting" else f"{ib} * {_c(rs)}"
+    source_term = f"{ib} * {_c(r_plus)}"
     error = (f"({_c(req.noise_gain)} * (abs(vos) + {drift} * {_c(req.delta_t)} + "
              f"{source_term}) + {ib} * {_c(req.rf)})")
     present = ["vos IS NOT NULL"]
@@ -147,9 +150,8 @@ def _noise(req) -> str:
     """METHOD §5 over the band [f_low, fh] (``fh`` from :func:`_band_source`)."""
     band = req.brief.noise_band
     low = band[0] if band is not None and band[0] is not None else DEFAULT_NOISE_LOW_HZ
-    rs = req.brief.source_resistance
     req_r = req.feedback_parallel
-    source = 0.0 if req.topology == "inverting" else rs
+    source = plus_resistance(req)  # the resistance at the + input
     resistive = source > 0 or req_r > 0
     thermal = 4 * BOLTZMANN * ROOM_KELVIN * (source + req_r)
     spread = source ** 2 + req_r ** 2

@@ -125,8 +125,9 @@ def _codes_of(result: CheckResult) -> np.ndarray:
 
 def _bits(mask: np.ndarray) -> np.ndarray:
     """Pack a (parts × checks) boolean mask into one integer per part."""
-    weights = np.left_shift(np.int64(1), np.arange(mask.shape[1], dtype=np.int64))
-    return (mask.astype(np.int64) * weights).sum(axis=1)
+    # a float matrix-vector product is exact below 2**53 and far faster than an
+    # integer multiply-and-sum (there are fewer than 53 checks)
+    return (mask @ (2.0 ** np.arange(mask.shape[1]))).astype(np.int64)
 
 
 def rank(evaluation: Evaluation) -> Shortlist:
@@ -137,9 +138,9 @@ def rank(evaluation: Evaluation) -> Shortlist:
     good = parts[qualifies]
     # score high first, then lower cost, lower iq (missing last), then part key; a
     # stable numpy lexsort (last key first) instead of a pandas multi-column sort
-    order = np.lexsort((_text_rank(good["part"]), good["iq"].fillna(np.inf).to_numpy(),
-                        good["unit_cost"].fillna(np.inf).to_numpy(),
-                        -good["score"].to_numpy()))
+    order = _order_with_key_tiebreak(
+        (good["iq"].fillna(np.inf).to_numpy(), good["unit_cost"].fillna(np.inf).to_numpy(),
+         -good["score"].to_numpy()), good["part"])
     qualifying = good.iloc[order].reset_index(drop=True)
     qualifying.insert(0, "rank", np.arange(1, len(qualifying) + 1))
 
@@ -147,8 +148,8 @@ def rank(evaluation: Evaluation) -> Shortlist:
                  & (parts["n_unknown"] == 0).to_numpy()]
     shortfall = _shortfall(evaluation, near["position"].to_numpy())
     near = near.assign(shortfall=shortfall)
-    near = near.iloc[np.lexsort((_text_rank(near["part"]), -shortfall,
-                                 near["n_failed"].to_numpy()))]
+    near = near.iloc[_order_with_key_tiebreak((-shortfall, near["n_failed"].to_numpy()),
+                                              near["part"])]
     counts = {
         "considered": int(len(parts)),
         "qualifying": int(qualifies.sum()),
@@ -158,9 +159,26 @@ def rank(evaluation: Evaluation) -> Shortlist:
     return Shortlist(evaluation, qualifying, near.reset_index(drop=True), counts)
 
 
-def _text_rank(text: pd.Series) -> np.ndarray:
-    """Each text's position in sorted (code-point) order, equal texts equal."""
-    return np.unique(text.to_numpy(dtype=object), return_inverse=True)[1].ravel()
+def _order_with_key_tiebreak(keys: tuple[np.ndarray, ...], text: pd.Series) -> np.ndarray:
+    """Stable lexsort order on ``keys`` (last key most significant, as np.lexsort),
+    with exact ties broken by ``text`` in code-point order.  Text is ranked only
+    among the tied rows: sorting strings is the slow part at 10⁶ rows."""
+    order = np.lexsort(keys)
+    if len(order) < 2:
+        return order
+    sorted_keys = [k[order] for k in keys]
+    same = np.logical_and.reduce([(k[1:] == k[:-1]) | (np.isnan(k[1:]) & np.isnan(k[:-1]))
+                                  if k.dtype.kind == "f" else k[1:] == k[:-1]
+                                  for k in sorted_keys])
+    if not same.any():
+        return order
+    tied = np.zeros(len(order), dtype=bool)
+    tied[1:] |= same
+    tied[:-1] |= same
+    rows = order[tied]
+    text_rank = np.zeros(len(order), dtype=np.int64)
+    text_rank[rows] = np.unique(text.to_numpy(dtype=object)[rows], return_inverse=True)[1].ravel()
+    return np.lexsort((text_rank,) + tuple(keys))
 
 
 def _shortfall(evaluation: Evaluation, positions: np.ndarray) -> np.ndarray:

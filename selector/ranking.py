@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from .checks import (FAIL, NA, PASS, RATIO_SENSES, STATUS_CODES, UNKNOWN, CheckResult,
+from .checks import (FAIL, PASS, RATIO_SENSES, STATUS_CODES, UNKNOWN, CheckResult,
                      run_checks)
 from .library import Library
 from .requirements import Requirements
@@ -200,4 +200,4 @@ def shortlist(req: Requirements, library: Library) -> Shortlist:
     return rank(evaluate(req, library))
 
 
-__all__ = ["Evaluation", "Shortlist", "evaluate", "rank", "shortlist", "NA"]
+__all__ = ["Evaluation", "Shortlist", "evaluate", "rank", "shortlist"]

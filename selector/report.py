@@ -15,7 +15,7 @@ from typing import Iterable
 
 import numpy as np
 
-from .checks import FAIL, NA, PASS, REGISTRY, UNKNOWN
+from .checks import NA, PASS, REGISTRY, UNKNOWN
 from .ranking import Shortlist
 from .requirements import Requirements
 from .units import format_si
@@ -341,4 +341,4 @@ def write_csv(rows: Iterable[Iterable]) -> str:
 
 
 __all__ = ["CAUTIONS", "render_derive", "render_shortlist", "shortlist_dict", "to_json",
-           "write_csv", "entry_dict", "reason", "FAIL"]
+           "write_csv", "entry_dict", "reason"]

@@ -7,7 +7,7 @@ signal into the minimum slew rate, bandwidth and the budgets.  Values are SI.
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field
 
 from . import relations as rel
 from .brief import Brief

@@ -21,7 +21,7 @@ from selector.audit import (audit, candidate_pairs, data_quality, dominance_para
                             dominated, exact_duplicates, goodness, near_duplicates,
                             plausibility_findings)
 from selector.coverage import coverage_grid, standard_grid, standard_profiles
-from selector.library import STATUSES, Library, load_library, parse_library
+from selector.library import STATUSES, Library, load_library
 from selector.ranking import shortlist
 from selector.requirements import derive
 

@@ -5,7 +5,6 @@ The channel: a gain-10 non-inverting stage (Rf = 9 kΩ, Rg = 1 kΩ) taking a ±0
 """
 from __future__ import annotations
 
-import json
 import math
 
 import control

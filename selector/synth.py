@@ -20,11 +20,14 @@ Everything is vectorised with numpy: numbers are formatted once per distinct val
 from __future__ import annotations
 
 import argparse
+import io
 import sys
 from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+
+from .library import Library, parse_library
 
 SYNTHETIC_NOTE = "invented synthetic part"
 
@@ -134,6 +137,16 @@ class Synthetic:
         frame = self.cells.copy()
         frame.columns = self.header()
         frame.to_csv(out, index=False, lineterminator="\n")
+
+    def to_text(self) -> str:
+        """The library CSV as text."""
+        buffer = io.StringIO()
+        self.to_csv(buffer)
+        return buffer.getvalue()
+
+    def to_library(self, source: str = "synthetic.csv") -> Library:
+        """Parse the CSV text straight back into a (strictly loaded) Library."""
+        return parse_library(self.to_text(), source)
 
 
 def _lognormal(rng, median, sd_decades, size):

@@ -11,7 +11,6 @@ The library is invented (selector.synth).
 """
 from __future__ import annotations
 
-import io
 import sys
 from pathlib import Path
 
@@ -23,7 +22,6 @@ sys.path.insert(0, str(Path(__file__).resolve().parent / "bench"))
 import bench_reference as reference  # noqa: E402
 import bench_sql  # noqa: E402
 from selector import derive, load_brief, shortlist, synth  # noqa: E402
-from selector.library import parse_library  # noqa: E402
 
 BRIEFS = Path(__file__).resolve().parent.parent / "demo" / "briefs"
 NAMES = ("hydrophone", "vibration", "thermocouple")
@@ -37,9 +35,7 @@ def generated():
 
 @pytest.fixture(scope="module")
 def library(generated):
-    buffer = io.StringIO()
-    generated.to_csv(buffer)
-    return parse_library(buffer.getvalue(), "bench.csv")
+    return generated.to_library("bench.csv")
 
 
 @pytest.fixture(scope="module")
@@ -90,21 +86,14 @@ def test_closed_form_checks_match_the_per_row_reference(req, library):
     assert engine == reference.qualifying_rows(req, library)
 
 
-def test_closed_form_checks_match_one_sqlite_query(req, library, frame):
+@pytest.mark.parametrize("engine_name", ["sqlite", "duckdb"])
+def test_closed_form_checks_match_one_sql_query(engine_name, req, library, frame):
+    if engine_name == "duckdb":
+        pytest.importorskip("duckdb")  # the optional bench extra
     engine = set(library.table["part"][reference.engine_qualifying(req, library)])
-    connection = bench_sql.sqlite_database(frame)
+    connection = getattr(bench_sql, f"{engine_name}_database")(frame)
     try:
-        assert set(bench_sql.sqlite_qualifying(connection, req)) == engine
-    finally:
-        connection.close()
-
-
-def test_closed_form_checks_match_the_same_query_in_duckdb(req, library, frame):
-    pytest.importorskip("duckdb")  # the optional bench extra
-    engine = set(library.table["part"][reference.engine_qualifying(req, library)])
-    connection = bench_sql.duckdb_database(frame)
-    try:
-        assert set(bench_sql.duckdb_qualifying(connection, req)) == engine
+        assert set(getattr(bench_sql, f"{engine_name}_qualifying")(connection, req)) == engine
     finally:
         connection.close()
 

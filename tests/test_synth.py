@@ -18,7 +18,7 @@ import pytest
 from scipy import constants, stats
 
 from selector import synth
-from selector.library import COLUMNS, normalise_key, parse_library
+from selector.library import COLUMNS, normalise_key
 
 N = 3000
 
@@ -30,15 +30,11 @@ def generated():
 
 @pytest.fixture(scope="module")
 def library(generated):
-    buffer = io.StringIO()
-    generated.to_csv(buffer)
-    return parse_library(buffer.getvalue(), "synthetic.csv")  # strict: raises on any problem
+    return generated.to_library("synthetic.csv")  # strict: raises on any problem
 
 
 def text_of(generated) -> str:
-    buffer = io.StringIO()
-    generated.to_csv(buffer)
-    return buffer.getvalue()
+    return generated.to_text()
 
 
 def test_same_seed_same_file_other_seed_other_file():
